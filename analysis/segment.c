@@ -62,11 +62,12 @@ void SEG_DefaultConfig(SEG_Config *c)
   GRD_DefaultParams(&c->params);
   c->contact_on_w = 100.0;
   c->contact_off_w = 50.0;
-  c->noise_on = 8.0;
-  c->noise_off = 4.0;
+  c->noise_on = 5.0;
+  c->noise_off = 2.5;
   c->min_pass_s = 0.2;
   c->end_hold_s = 0.1;
-  c->baseline_tau_s = 20.0;
+  c->baseline_tau_s = 60.0;
+  c->min_pass_samples = 3;
   c->speed_change = 0.05;
   c->max_interval_s = 1.0;
   c->depth_tolerance_mm = 0.0002;
@@ -92,6 +93,8 @@ const char *SEG_CheckConfig(const SEG_Config *c)
     return "contact_off_w: must be positive and not above contact_on_w";
   if (!(c->noise_on >= 0.0) || !(c->noise_off >= 0.0) || c->noise_off > c->noise_on)
     return "noise_off: must be between 0 and noise_on";
+  if (c->min_pass_samples < 1)
+    return "min_pass_samples: must be at least 1";
   if (!(c->min_pass_s >= 0.0))
     return "min_pass_s: must not be negative";
   if (!(c->end_hold_s >= 0.0))
@@ -147,19 +150,22 @@ static void baseline_seed(SEG_State *s, double t, double p, double rpm)
   s->baseline_rpm = rpm;
 }
 
-/* Level and slope of the weighted line at bl_ref. A window too short to show a
- * slope gives the weighted mean and no slope. */
+/* Level and slope of the weighted line at bl_ref. The slope is shrunk toward
+ * zero by its own uncertainty (factor s^2 / (s^2 + se^2)): a few noisy idle
+ * samples between passes must not tilt the line that is extrapolated over
+ * the next pass, while a long, well-sampled warm-up drift is followed fully. */
 static void baseline_line(const SEG_State *s, double *level, double *slope)
 {
-  double det = s->bl_w * s->bl_wtt - s->bl_wt * s->bl_wt;
-  double span2 = s->bl_w > 0.0 ? s->bl_wtt / s->bl_w : 0.0; /* mean square age, s^2 */
-  if (s->bl_w < 3.0 || span2 < 0.25 || det <= 1e-9 * s->bl_w * s->bl_wtt) {
-    *slope = 0.0;
-    *level = s->bl_wp / s->bl_w;
-    return;
+  double w = s->bl_w;
+  double mean_u = s->bl_wt / w, mean_p = s->bl_wp / w;
+  double suu = s->bl_wtt - s->bl_wt * mean_u; /* weighted sum of squared age deviations */
+  *slope = 0.0;
+  if (w >= 3.0 && suu > 1e-12 * (s->bl_wtt + 1e-300)) {
+    double b = (s->bl_wtp - s->bl_wt * mean_p) / suu;
+    double se2 = s->noise_w * s->noise_w / suu;
+    *slope = b * (b * b / (b * b + se2 + 1e-300));
   }
-  *slope = (s->bl_w * s->bl_wtp - s->bl_wt * s->bl_wp) / det;
-  *level = (s->bl_wp - *slope * s->bl_wt) / s->bl_w;
+  *level = mean_p - *slope * mean_u;
 }
 
 static double baseline_at(const SEG_State *s, double t)
@@ -415,7 +421,7 @@ static int end_pass(SEG_State *s, const SEG_EdgeSample *after, unsigned flags, S
   double t1 = after ? refine_end(s, after, level) : s->t_last;
   if (s->start_after_gap)
     flags |= SEG_F_GAP;
-  if (t1 - t0 < s->cfg.min_pass_s || s->n_samples == 0)
+  if (t1 - t0 < s->cfg.min_pass_s || s->n_samples < s->cfg.min_pass_samples)
     return 0;
   memset(o, 0, sizeof(*o));
   o->number = s->next_number++;

@@ -36,6 +36,7 @@ typedef struct SEG_Config {
   double noise_on;          /* start threshold in idle noise standard deviations */
   double noise_off;         /* end threshold in idle noise standard deviations */
   double min_pass_s;        /* shorter contacts are not passes, s */
+  unsigned min_pass_samples; /* nor are contacts seen in fewer samples */
   double end_hold_s;        /* power must stay under the end threshold this long, s */
   double baseline_tau_s;    /* time constant of the idle baseline, s */
   double speed_change;      /* relative spindle-speed change that re-seeds the baseline */

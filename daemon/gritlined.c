@@ -1,0 +1,371 @@
+/* gritlined.c: the daemon: polls the machine over Modbus, runs the monitoring
+ * pipeline, writes the shift logs; systemd notification, reload and watchdog. */
+#include <errno.h>
+#include <getopt.h>
+#include <math.h>
+#include <poll.h>
+#include <signal.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/signalfd.h>
+#include <sys/timerfd.h>
+#include <sysexits.h>
+#include <systemd/sd-daemon.h>
+#include <time.h>
+#include <unistd.h>
+
+#include "conf.h"
+#include "log.h"
+#include "mbclient.h"
+#include "monitor.h"
+
+#define DEFAULT_CONFIG "/etc/gritline/gritline.conf"
+
+static const char usage_text[] =
+    "usage: gritlined [-c FILE] [--data-dir DIR] [--run-for SECONDS]\n"
+    "       gritlined --check-config FILE\n"
+    "\n"
+    "Monitors a grinding machine: polls spindle power and axis feeds over Modbus,\n"
+    "splits the stream into passes, and writes per shift the recording samples.csv,\n"
+    "passes.csv, events.csv and dress_cycles.csv under <data_dir>/<machine>/<date>_<shift>/.\n"
+    "\n"
+    "  -c, --config FILE      configuration file (default " DEFAULT_CONFIG ")\n"
+    "      --check-config FILE  validate FILE, print the effective configuration, exit\n"
+    "      --data-dir DIR     use DIR instead of the configured data_dir\n"
+    "      --run-for SECONDS  stop by itself after SECONDS (demos and tests)\n"
+    "  -h, --help             this text\n"
+    "      --version          print the version\n"
+    "\n"
+    "Signals: SIGTERM and SIGINT stop after flushing every file; SIGHUP reloads the\n"
+    "configuration (a bad one is refused and the running one kept).\n"
+    "Exit status: 0 stopped, 64 usage, 78 bad configuration, 70 internal error,\n"
+    "71 system error.\n"
+    "\n"
+    "Caution: gritline's alerts are advisory and never replace the machine's own guards;\n"
+    "never exceed the wheel's marked maximum operating speed; follow the machine builder's\n"
+    "instructions, local codes and licensed practice.\n";
+
+typedef struct daemon_state {
+  CNF_Config cfg;           /* running configuration */
+  CNF_Config next;          /* a reload is read here first */
+  MBC_Client *client;
+  MON_Monitor *mon;
+  int started;              /* the start mark has been written */
+  int connected_logged;     /* last connection state logged: -1 none, 0 down, 1 up */
+  double last_clock;        /* controller clock of the latest good poll, s */
+  double last_clock_mono;   /* monotonic time of that poll */
+  uint64_t missed_ticks;    /* polls skipped because a poll overran */
+  double watchdog_s;        /* 0 = no watchdog */
+  double next_watchdog;     /* monotonic s */
+  double next_status;       /* monotonic s */
+  unsigned long passes;
+  char last_event[200];
+} daemon_state;
+
+static double now_mono(void)
+{
+  struct timespec ts;
+  clock_gettime(CLOCK_MONOTONIC, &ts);
+  return (double)ts.tv_sec + ts.tv_nsec * 1e-9;
+}
+
+static double now_real(void)
+{
+  struct timespec ts;
+  clock_gettime(CLOCK_REALTIME, &ts);
+  return (double)ts.tv_sec + ts.tv_nsec * 1e-9;
+}
+
+static void on_pass(void *ctx, const SEG_Pass *p, const PLG_PassExtra *x)
+{
+  daemon_state *d = ctx;
+  char flags[160];
+  d->passes++;
+  LOG_Message(LOG_INFO,
+              "pass %lu: %.2f s, ae %.4f mm, vw %.0f mm/min, vs %.2f m/s, Aggr %.2f, P %.0f W, u %.2f J/mm^3, "
+              "u/u* %.2f, cycle %lu pass %lu%s%s",
+              p->number, p->duration_s, p->depth_mm, p->work_speed_mm_s * 60.0, p->wheel_speed_m_s,
+              p->aggressiveness, p->net_power_mean_w, p->specific_energy_j_mm3, p->burn_ratio, x->dress_cycle,
+              x->passes_since_dress, p->flags ? " " : "", SEG_FormatFlags(p->flags, flags, sizeof flags));
+}
+
+static void on_event(void *ctx, const PLG_Event *e)
+{
+  daemon_state *d = ctx;
+  LOG_Level lv = e->severity == PLG_CRITICAL ? LOG_ERR : e->severity == PLG_WARNING ? LOG_WARNING : LOG_NOTICE;
+  if (e->state == PLG_CLEARED)
+    lv = LOG_NOTICE;
+  LOG_Message(lv, "%s %s: %s", e->kind, PLG_StateName(e->state), e->message);
+  if (e->state != PLG_NOTE)
+    snprintf(d->last_event, sizeof d->last_event, "%s %s", e->kind, PLG_StateName(e->state));
+}
+
+static void on_io_error(void *ctx, const char *message)
+{
+  (void)ctx;
+  LOG_Message(LOG_ERR, "logging failed: %s", message);
+}
+
+static void send_status(daemon_state *d)
+{
+  MON_Status st;
+  MON_GetStatus(d->mon, &st);
+  char text[400];
+  const SEG_Pass *p = &st.last_pass;
+  int n = snprintf(text, sizeof text, "STATUS=%s, shift %s: %lu passes", st.comm_lost ? "controller lost" : "polling",
+                   st.shift[0] ? st.shift : "-", st.passes_shift);
+  if (p->number && n > 0 && (size_t)n < sizeof text)
+    n += snprintf(text + n, sizeof text - (size_t)n, "; last pass Aggr %.1f, u %.1f J/mm^3", p->aggressiveness,
+                  p->specific_energy_j_mm3);
+  if (d->last_event[0] && n > 0 && (size_t)n < sizeof text)
+    snprintf(text + n, sizeof text - (size_t)n, "; last event %s", d->last_event);
+  sd_notify(0, text);
+}
+
+static int make_client(daemon_state *d, const CNF_Config *c)
+{
+  char err[256];
+  MBC_Config mc = c->modbus;
+  mc.stale_s = 0.0; /* frozen values are judged by the pipeline, so replays judge alike */
+  MBC_Client *cl = MBC_Create(&mc, &c->map, err, sizeof err);
+  if (!cl) {
+    LOG_Message(LOG_ERR, "%s: modbus: %s", c->path, err);
+    return -1;
+  }
+  if (d->client)
+    MBC_Destroy(d->client);
+  d->client = cl;
+  d->connected_logged = -1;
+  return 0;
+}
+
+static void log_connection(daemon_state *d, MBC_Status st)
+{
+  int up = st == MBC_ALL_READ || st == MBC_PARTLY_READ || st == MBC_FAIL_EXCEPTION;
+  if (st == MBC_DOWN || up == d->connected_logged)
+    return;
+  if (up)
+    LOG_Message(LOG_NOTICE, "connected to the controller (%s)", MBC_StatusName(st));
+  else
+    LOG_Message(LOG_WARNING, "controller: %s: %s", MBC_StatusName(st), MBC_LastError(d->client));
+  d->connected_logged = up;
+}
+
+static void poll_once(daemon_state *d)
+{
+  SMP_Sample s;
+  double clock_s = NAN;
+  SMP_Clear(&s, NAN);
+  MBC_Status st = MBC_Poll(d->client, now_mono(), &s, &clock_s);
+  double mono = now_mono();
+  log_connection(d, st);
+  if (d->cfg.timestamp_controller) {
+    if (!isnan(clock_s)) {
+      d->last_clock = clock_s;
+      d->last_clock_mono = mono;
+      s.time = clock_s;
+    } else if (!isnan(d->last_clock)) {
+      /* No clock in this poll: carry the controller's time on with ours. */
+      s.time = d->last_clock + (mono - d->last_clock_mono);
+      SMP_Clear(&s, s.time); /* values without their clock cannot be placed */
+    } else {
+      return; /* nothing to place in time yet */
+    }
+  } else {
+    s.time = now_real();
+  }
+  if (!d->started) {
+    char text[400];
+    snprintf(text, sizeof text, "gritlined %s, %s, job %s, wheel %s", GRITLINE_VERSION, d->cfg.path,
+             d->cfg.job->name, d->cfg.wheel->name);
+    MON_Mark(d->mon, s.time, "start", text);
+    d->started = 1;
+  }
+  MON_Feed(d->mon, &s);
+}
+
+static void reload(daemon_state *d)
+{
+  char err[512], text[600];
+  sd_notifyf(0, "RELOADING=1\nMONOTONIC_USEC=%llu", (unsigned long long)(now_mono() * 1e6));
+  if (CNF_Load(&d->next, d->cfg.path, err, sizeof err) != 0) {
+    LOG_Message(LOG_ERR, "reload refused, keeping the running configuration: %s", err);
+    snprintf(text, sizeof text, "refused, running one kept: %s", err);
+    if (d->started)
+      MON_Mark(d->mon, -1.0, "config", text);
+  } else {
+    int modbus_changed = memcmp(&d->next.modbus, &d->cfg.modbus, sizeof d->cfg.modbus) != 0 ||
+                         memcmp(&d->next.map, &d->cfg.map, sizeof d->cfg.map) != 0;
+    if (modbus_changed && make_client(d, &d->next) != 0) {
+      LOG_Message(LOG_ERR, "reload refused: the new Modbus settings cannot be used");
+      if (d->started)
+        MON_Mark(d->mon, -1.0, "config", "refused: the new Modbus settings cannot be used");
+    } else {
+      d->cfg = d->next;
+      d->cfg.job = &d->cfg.jobs[d->next.job - d->next.jobs];
+      d->cfg.wheel = &d->cfg.wheels[d->next.wheel - d->next.wheels];
+      MON_Reconfigure(d->mon, &d->cfg);
+      snprintf(text, sizeof text, "loaded: %s, job %s, wheel %s", d->cfg.path, d->cfg.job->name, d->cfg.wheel->name);
+      LOG_Message(LOG_NOTICE, "configuration %s", text);
+      if (d->started)
+        MON_Mark(d->mon, -1.0, "config", text);
+    }
+  }
+  sd_notify(0, "READY=1");
+}
+
+static int run(daemon_state *d, double run_for)
+{
+  sigset_t mask;
+  sigemptyset(&mask);
+  sigaddset(&mask, SIGTERM);
+  sigaddset(&mask, SIGINT);
+  sigaddset(&mask, SIGHUP);
+  sigprocmask(SIG_BLOCK, &mask, NULL);
+  int sfd = signalfd(-1, &mask, SFD_CLOEXEC | SFD_NONBLOCK);
+  int tfd = timerfd_create(CLOCK_MONOTONIC, TFD_CLOEXEC | TFD_NONBLOCK);
+  if (sfd < 0 || tfd < 0) {
+    LOG_Message(LOG_ERR, "signalfd/timerfd: %s", strerror(errno));
+    return EX_OSERR;
+  }
+  /* Absolute, periodic deadlines: the kernel keeps the schedule, so a late
+   * poll does not push the next ones back; overruns are counted. */
+  struct timespec start;
+  clock_gettime(CLOCK_MONOTONIC, &start);
+  double period = d->cfg.poll_interval_s;
+  struct itimerspec its;
+  its.it_interval.tv_sec = (time_t)period;
+  its.it_interval.tv_nsec = (long)((period - floor(period)) * 1e9);
+  its.it_value = start;
+  its.it_value.tv_nsec += 1000000;
+  if (its.it_value.tv_nsec >= 1000000000L) {
+    its.it_value.tv_sec++;
+    its.it_value.tv_nsec -= 1000000000L;
+  }
+  if (timerfd_settime(tfd, TFD_TIMER_ABSTIME, &its, NULL) != 0) {
+    LOG_Message(LOG_ERR, "timerfd_settime: %s", strerror(errno));
+    return EX_OSERR;
+  }
+  uint64_t wd_usec = 0;
+  if (sd_watchdog_enabled(0, &wd_usec) > 0)
+    d->watchdog_s = wd_usec / 2e6;
+  sd_notify(0, "READY=1");
+  LOG_Message(LOG_NOTICE, "monitoring %s every %.0f ms (%s, job %s, wheel %s)", d->cfg.machine, period * 1e3,
+              d->cfg.path, d->cfg.job->name, d->cfg.wheel->name);
+  double t0 = now_mono();
+  int stop = 0;
+  while (!stop) {
+    struct pollfd pfd[2] = {{tfd, POLLIN, 0}, {sfd, POLLIN, 0}};
+    if (poll(pfd, 2, 1000) < 0 && errno != EINTR) {
+      LOG_Message(LOG_ERR, "poll: %s", strerror(errno));
+      break;
+    }
+    if (pfd[0].revents & POLLIN) {
+      uint64_t ticks = 0;
+      if (read(tfd, &ticks, sizeof ticks) == (ssize_t)sizeof ticks) {
+        if (ticks > 1)
+          d->missed_ticks += ticks - 1;
+        poll_once(d);
+      }
+    }
+    if (pfd[1].revents & POLLIN) {
+      struct signalfd_siginfo si;
+      while (read(sfd, &si, sizeof si) == (ssize_t)sizeof si) {
+        if (si.ssi_signo == SIGHUP)
+          reload(d);
+        else
+          stop = 1;
+      }
+    }
+    double m = now_mono();
+    if (d->watchdog_s > 0 && m >= d->next_watchdog) {
+      sd_notify(0, "WATCHDOG=1");
+      d->next_watchdog = m + d->watchdog_s;
+    }
+    if (m >= d->next_status) {
+      send_status(d);
+      d->next_status = m + 2.0;
+    }
+    if (run_for > 0 && m - t0 >= run_for)
+      stop = 1;
+  }
+  sd_notify(0, "STOPPING=1");
+  if (d->started)
+    MON_Mark(d->mon, -1.0, "stop", "gritlined stopped");
+  if (d->missed_ticks)
+    LOG_Message(LOG_NOTICE, "%llu polls skipped because a poll overran its period",
+                (unsigned long long)d->missed_ticks);
+  close(tfd);
+  close(sfd);
+  return EX_OK;
+}
+
+int main(int argc, char **argv)
+{
+  static const struct option opts[] = {
+      {"config", required_argument, NULL, 'c'},   {"check-config", required_argument, NULL, 'C'},
+      {"data-dir", required_argument, NULL, 'd'}, {"run-for", required_argument, NULL, 'r'},
+      {"help", no_argument, NULL, 'h'},           {"version", no_argument, NULL, 'V'},
+      {NULL, 0, NULL, 0},
+  };
+  const char *config = DEFAULT_CONFIG, *check = NULL, *data_dir = NULL;
+  double run_for = 0.0;
+  LOG_Initialise("gritlined");
+  opterr = 0;
+  int c;
+  while ((c = getopt_long(argc, argv, ":c:h", opts, NULL)) != -1) {
+    switch (c) {
+    case 'c': config = optarg; break;
+    case 'C': check = optarg; break;
+    case 'd': data_dir = optarg; break;
+    case 'r': {
+      char *end;
+      run_for = strtod(optarg, &end);
+      if (end == optarg || *end || !(run_for > 0.0) || !isfinite(run_for)) {
+        fprintf(stderr, "gritlined: --run-for: not a positive number of seconds: \"%s\"\n", optarg);
+        return EX_USAGE;
+      }
+      break;
+    }
+    case 'h': fputs(usage_text, stdout); return EX_OK;
+    case 'V': puts("gritlined " GRITLINE_VERSION); return EX_OK;
+    case ':': fprintf(stderr, "gritlined: %s: missing value\n", argv[optind - 1]); return EX_USAGE;
+    default: fprintf(stderr, "gritlined: unknown option \"%s\" (see gritlined --help)\n", argv[optind - 1]); return EX_USAGE;
+    }
+  }
+  if (optind < argc) {
+    fprintf(stderr, "gritlined: unexpected argument \"%s\" (see gritlined --help)\n", argv[optind]);
+    return EX_USAGE;
+  }
+  static daemon_state d; /* large: holds two configurations */
+  char err[512];
+  if (check) {
+    if (CNF_Load(&d.cfg, check, err, sizeof err) != 0) {
+      fprintf(stderr, "gritlined: %s\n", err);
+      return EX_CONFIG;
+    }
+    CNF_Print(&d.cfg, stdout);
+    return EX_OK;
+  }
+  if (CNF_Load(&d.cfg, config, err, sizeof err) != 0) {
+    LOG_Message(LOG_ERR, "%s", err);
+    return EX_CONFIG;
+  }
+  d.last_clock = NAN;
+  if (make_client(&d, &d.cfg) != 0)
+    return EX_CONFIG;
+  MON_Options mo = {data_dir, 1};
+  MON_Sink sink = {&d, on_pass, on_event, on_io_error};
+  d.mon = MON_Create(&d.cfg, &mo, &sink, err, sizeof err);
+  if (!d.mon) {
+    LOG_Message(LOG_ERR, "%s", err);
+    return EX_SOFTWARE;
+  }
+  int rc = run(&d, run_for);
+  MON_Destroy(d.mon);
+  MBC_Destroy(d.client);
+  LOG_Message(LOG_NOTICE, "stopped");
+  return rc;
+}

@@ -1,0 +1,209 @@
+/* passlog.c: the logs passes.csv, events.csv and dress_cycles.csv. */
+#include "passlog.h"
+
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <string.h>
+
+const char PLG_PASSES_HEADER[] =
+    "pass,start_time,end_time,duration_s,dress_cycle,passes_since_dress,depth_of_cut_mm,work_speed_mm_min,"
+    "wheel_speed_m_s,spindle_speed_rpm,wheel_diameter_mm,equivalent_diameter_mm,contact_length_mm,"
+    "specific_removal_rate_mm2_s,removal_rate_mm3_s,aggressiveness,equivalent_chip_thickness_um,"
+    "max_chip_thickness_um,idle_power_w,net_power_mean_w,net_power_peak_w,energy_j,volume_mm3,"
+    "specific_energy_j_mm3,burn_threshold_j_mm3,burn_ratio,reference_specific_energy_j_mm3,dull_ratio,"
+    "dull_ratio_smoothed,volume_since_dress_mm3_mm,forecast_passes_left,forecast_volume_left_mm3_mm,"
+    "rubbing_intercept_w_mm,flags";
+
+const char PLG_EVENTS_HEADER[] = "time,kind,severity,state,pass,value,limit,message";
+
+const char PLG_CYCLES_HEADER[] =
+    "cycle,start_time,end_time,passes,volume_mm3_mm,reference_specific_energy_j_mm3,final_dull_ratio,g_ratio,"
+    "trigger,forecast_volume_mm3_mm,limit_volume_mm3_mm,forecast_right";
+
+void PLG_InitExtra(PLG_PassExtra *x)
+{
+  x->dress_cycle = 0;
+  x->passes_since_dress = 0;
+  x->reference_u_j_mm3 = x->dull_ratio = x->dull_ratio_smoothed = NAN;
+  x->volume_since_dress_mm3_mm = x->forecast_passes_left = x->forecast_volume_left_mm3_mm = NAN;
+  x->rubbing_intercept_w_mm = NAN;
+}
+
+typedef struct out {
+  char *buf;
+  size_t size, used;
+  int bad;
+} out;
+
+__attribute__((format(printf, 2, 3))) static void put(out *o, const char *fmt, ...)
+{
+  if (o->bad)
+    return;
+  va_list ap;
+  va_start(ap, fmt);
+  int n = vsnprintf(o->buf + o->used, o->size - o->used, fmt, ap);
+  va_end(ap);
+  if (n < 0 || (size_t)n >= o->size - o->used)
+    o->bad = 1;
+  else
+    o->used += (size_t)n;
+}
+
+/* A number with `dec` decimals, or an empty field when unknown. */
+static void num(out *o, double v, int dec)
+{
+  if (isfinite(v))
+    put(o, ",%.*f", dec, v);
+  else
+    put(o, ",");
+}
+
+long PLG_FormatPass(const SEG_Pass *p, const PLG_PassExtra *x, char *buf, size_t size)
+{
+  out o = {buf, size, 0, 0};
+  char flags[160];
+  put(&o, "%lu,%.3f,%.3f,%.3f,%lu,%lu", p->number, p->start_time, p->end_time, p->duration_s, x->dress_cycle,
+      x->passes_since_dress);
+  num(&o, p->depth_mm, 6);
+  num(&o, p->work_speed_mm_s * 60.0, 1);
+  num(&o, p->wheel_speed_m_s, 3);
+  num(&o, p->spindle_speed_rpm, 1);
+  num(&o, p->wheel_diameter_mm, 3);
+  num(&o, p->equivalent_diameter_mm, 3);
+  num(&o, p->contact_length_mm, 4);
+  num(&o, p->specific_removal_rate_mm2_s, 4);
+  num(&o, p->removal_rate_mm3_s, 3);
+  num(&o, p->aggressiveness, 3);
+  num(&o, p->chip_thickness_mm * 1e3, 5);
+  num(&o, p->max_chip_thickness_mm * 1e3, 4);
+  num(&o, p->idle_power_w, 1);
+  num(&o, p->net_power_mean_w, 1);
+  num(&o, p->net_power_peak_w, 1);
+  num(&o, p->energy_j, 2);
+  num(&o, p->volume_mm3, 3);
+  num(&o, p->specific_energy_j_mm3, 4);
+  num(&o, p->burn_threshold_j_mm3, 4);
+  num(&o, p->burn_ratio, 4);
+  num(&o, x->reference_u_j_mm3, 4);
+  num(&o, x->dull_ratio, 4);
+  num(&o, x->dull_ratio_smoothed, 4);
+  num(&o, x->volume_since_dress_mm3_mm, 3);
+  num(&o, x->forecast_passes_left, 1);
+  num(&o, x->forecast_volume_left_mm3_mm, 3);
+  num(&o, x->rubbing_intercept_w_mm, 3);
+  put(&o, ",%s\n", SEG_FormatFlags(p->flags, flags, sizeof flags));
+  return o.bad ? -1 : (long)o.used;
+}
+
+const char *PLG_SeverityName(PLG_Severity s)
+{
+  return s == PLG_CRITICAL ? "critical" : s == PLG_WARNING ? "warning" : "info";
+}
+
+const char *PLG_StateName(PLG_State s)
+{
+  return s == PLG_RAISED ? "raised" : s == PLG_CLEARED ? "cleared" : "info";
+}
+
+long PLG_CsvField(const char *text, char *buf, size_t size)
+{
+  int quote = strpbrk(text, ",\"\n\r") != NULL;
+  size_t u = 0;
+  if (quote && u < size)
+    buf[u++] = '"';
+  for (const char *p = text; *p; p++) {
+    char c = (*p == '\n' || *p == '\r') ? ' ' : *p;
+    if (c == '"') {
+      if (u + 1 >= size)
+        return -1;
+      buf[u++] = '"';
+    }
+    if (u + 1 >= size)
+      return -1;
+    buf[u++] = c;
+  }
+  if (quote) {
+    if (u + 1 >= size)
+      return -1;
+    buf[u++] = '"';
+  }
+  if (u >= size)
+    return -1;
+  buf[u] = '\0';
+  return (long)u;
+}
+
+long PLG_FormatEvent(const PLG_Event *e, char *buf, size_t size)
+{
+  out o = {buf, size, 0, 0};
+  char msg[sizeof e->message * 2 + 4];
+  if (PLG_CsvField(e->message, msg, sizeof msg) < 0)
+    return -1;
+  put(&o, "%.3f,%s,%s,%s,", e->time, e->kind, PLG_SeverityName(e->severity), PLG_StateName(e->state));
+  if (e->pass)
+    put(&o, "%lu", e->pass);
+  num(&o, e->value, 4);
+  num(&o, e->limit, 4);
+  put(&o, ",%s\n", msg);
+  return o.bad ? -1 : (long)o.used;
+}
+
+long PLG_FormatCycle(const PLG_Cycle *c, char *buf, size_t size)
+{
+  out o = {buf, size, 0, 0};
+  put(&o, "%lu,%.3f,%.3f,%lu", c->cycle, c->start_time, c->end_time, c->passes);
+  num(&o, c->volume_mm3_mm, 3);
+  num(&o, c->reference_u_j_mm3, 4);
+  num(&o, c->final_dull_ratio, 4);
+  num(&o, c->g_ratio, 2);
+  put(&o, ",%s", c->trigger);
+  num(&o, c->forecast_volume_mm3_mm, 3);
+  num(&o, c->limit_volume_mm3_mm, 3);
+  if (c->forecast_right < 0)
+    put(&o, ",\n");
+  else
+    put(&o, ",%s\n", c->forecast_right ? "yes" : "no");
+  return o.bad ? -1 : (long)o.used;
+}
+
+int PLG_SplitCsv(char *line, char **field, int max)
+{
+  int n = 0;
+  char *p = line;
+  for (;;) {
+    if (n == max)
+      return n;
+    if (*p == '"') {
+      char *w = p;
+      field[n++] = w;
+      p++;
+      for (;;) {
+        if (*p == '\0')
+          return -1;
+        if (*p == '"') {
+          if (p[1] == '"') {
+            *w++ = '"';
+            p += 2;
+            continue;
+          }
+          p++;
+          break;
+        }
+        *w++ = *p++;
+      }
+      *w = '\0';
+      if (*p == ',') {
+        p++;
+        continue;
+      }
+      return *p == '\0' ? n : -1;
+    }
+    field[n++] = p;
+    char *comma = strchr(p, ',');
+    if (!comma)
+      return n;
+    *comma = '\0';
+    p = comma + 1;
+  }
+}
