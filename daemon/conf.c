@@ -30,7 +30,9 @@ typedef struct key_desc {
   const char *unit;   /* as written in the file, for the docs */
 } key_desc;
 
-typedef enum section_kind { S_MACHINE, S_MODBUS, S_CHANNEL, S_JOB, S_WHEEL, S_SHIFTS, S_SEGMENTATION } section_kind;
+typedef enum section_kind {
+  S_MACHINE, S_MODBUS, S_CHANNEL, S_JOB, S_WHEEL, S_SHIFTS, S_SEGMENTATION, S_CONDITION, S_ALERTS, S_WRITEBACK
+} section_kind;
 
 typedef struct section_desc {
   const char *name;        /* "machine", or the prefix "channel" of "channel.NAME" */
@@ -160,6 +162,7 @@ static const key_desc machine_keys[] = {
     POS("spindle_rating_kw", CNF_Config, spindle_rating_w, 10000, 1000.0, "kW"),
     POS("poll_interval_ms", CNF_Config, poll_interval_s, 60000, 0.001, "ms"),
     SPECIAL("timestamp", CNF_Config, timestamp_controller, set_timestamp, print_timestamp),
+    POS("comm_lost_after_s", CNF_Config, comm_lost_after_s, 3600, 1, "s"),
     STR("data_dir", CNF_Config, data_dir, K_PATH),
     STR("runtime_dir", CNF_Config, runtime_dir, K_PATH),
     STR("job", CNF_Config, job_name, K_NAME),
@@ -218,6 +221,100 @@ static const key_desc wheel_keys[] = {
     NUM("burn_margin", CNF_Wheel, burn_margin, 0.1, 2, 1, ""),
     NUM("min_g_ratio", CNF_Wheel, min_g_ratio, 0, 100000, 1, ""),
     NUM("wear_drop", CNF_Wheel, wear_drop, 0.1, 0.99, 1, ""),
+    POS("aggr_min", CNF_Wheel, aggr_min, 1000, 1, ""),
+    POS("aggr_max", CNF_Wheel, aggr_max, 1000, 1, ""),
+};
+
+/* [condition]: the model of the dress cycles and the hold-off of each condition. */
+#define RULE(n, k, f, what) UINT(n, CNF_Config, cond.rule[k].f, 1, 1000, what)
+static const key_desc condition_keys[] = {
+    UINT("settle_passes", CNF_Config, cond.model.settle_passes, 0, 1000, "passes"),
+    UINT("reference_passes", CNF_Config, cond.model.reference_passes, 2, CYC_REFERENCE_MAX, "passes"),
+    UINT("median_passes", CNF_Config, cond.model.median_len, 1, RBS_RUNMED_MAX, "passes"),
+    NUM("smoothing", CNF_Config, cond.model.ewma_alpha, 0.01, 1, 1, ""),
+    NUM("cusum_k", CNF_Config, cond.model.cusum_k, 0, 10, 1, "scatters"),
+    NUM("cusum_h", CNF_Config, cond.model.cusum_h, 0.1, 100, 1, "scatters"),
+    NUM("cusum_gate", CNF_Config, cond.cusum_gate, 0, 1, 1, ""),
+    UINT("trend_passes", CNF_Config, cond.model.trend_window, 2, CYC_TREND_MAX, "passes"),
+    UINT("min_forecast_passes", CNF_Config, cond.model.min_forecast_passes, 2, CYC_TREND_MAX, "passes"),
+    UINT("power_fit_passes", CNF_Config, cond.model.power_window, 2, CYC_POWER_MAX, "passes"),
+    NUM("forecast_tolerance", CNF_Config, cond.model.forecast_tolerance, 0.01, 1, 1, ""),
+    RULE("dulling_raise_after", CND_DULLING, raise_after, "passes"),
+    RULE("dulling_clear_after", CND_DULLING, clear_after, "passes"),
+    RULE("low_aggressiveness_raise_after", CND_LOW_AGGR, raise_after, "passes"),
+    RULE("low_aggressiveness_clear_after", CND_LOW_AGGR, clear_after, "passes"),
+    RULE("high_aggressiveness_raise_after", CND_HIGH_AGGR, raise_after, "passes"),
+    RULE("high_aggressiveness_clear_after", CND_HIGH_AGGR, clear_after, "passes"),
+    RULE("wheel_wear_raise_after", CND_WHEEL_WEAR, raise_after, "passes"),
+    RULE("wheel_wear_clear_after", CND_WHEEL_WEAR, clear_after, "passes"),
+    RULE("burn_risk_raise_after", CND_BURN_RISK, raise_after, "passes"),
+    RULE("burn_risk_clear_after", CND_BURN_RISK, clear_after, "passes"),
+    RULE("overload_raise_after", CND_OVERLOAD, raise_after, "passes"),
+    RULE("overload_clear_after", CND_OVERLOAD, clear_after, "passes"),
+    RULE("overspeed_raise_after", CND_OVERSPEED, raise_after, "samples"),
+    RULE("overspeed_clear_after", CND_OVERSPEED, clear_after, "samples"),
+};
+
+static int set_hook(void *t, const char *v, char *err, size_t n)
+{
+  if (v[0] != '/') {
+    snprintf(err, n, "must be an absolute path to a program (it is run without a shell)");
+    return -1;
+  }
+  if (strlen(v) >= CNF_PATH) {
+    snprintf(err, n, "longer than %d characters", CNF_PATH - 1);
+    return -1;
+  }
+  snprintf((char *)t, CNF_PATH, "%s", v);
+  return 0;
+}
+static void print_path(const void *t, char *b, size_t n) { snprintf(b, n, "%s", (const char *)t); }
+
+static const key_desc alert_keys[] = {
+    SPECIAL("hook", CNF_Config, hook, set_hook, print_path),
+    POS("hook_timeout_s", CNF_Config, hook_timeout_s, 3600, 1, "s"),
+};
+
+/* "coil 12" or "register 100 1". */
+static int set_writeback(void *t, const char *v, char *err, size_t n)
+{
+  CNF_WriteBack *w = t;
+  char kind[16], tail;
+  unsigned addr, value = 1;
+  int got = sscanf(v, "%15s %u %u %c", kind, &addr, &value, &tail);
+  if (got >= 2 && strcmp(kind, "coil") == 0 && got == 2 && addr <= 65535) {
+    *w = (CNF_WriteBack){CNF_WB_COIL, addr, 1};
+    return 0;
+  }
+  if (got == 3 && strcmp(kind, "register") == 0 && addr <= 65535 && value <= 65535) {
+    *w = (CNF_WriteBack){CNF_WB_REGISTER, addr, value};
+    return 0;
+  }
+  snprintf(err, n, "expected \"coil ADDRESS\" or \"register ADDRESS VALUE\" (addresses 0..65535), not \"%s\"", v);
+  return -1;
+}
+static void print_writeback(const void *t, char *b, size_t n)
+{
+  const CNF_WriteBack *w = t;
+  if (w->kind == CNF_WB_COIL)
+    snprintf(b, n, "coil %u", w->address);
+  else if (w->kind == CNF_WB_REGISTER)
+    snprintf(b, n, "register %u %u", w->address, w->value);
+  else
+    b[0] = '\0';
+}
+
+static const key_desc writeback_keys[] = {
+    {"dulling", K_SPECIAL, OFF(CNF_Config, writeback[CND_DULLING]), 0, 0, 0, 0, 1, set_writeback, print_writeback, ""},
+    {"low_aggressiveness", K_SPECIAL, OFF(CNF_Config, writeback[CND_LOW_AGGR]), 0, 0, 0, 0, 1, set_writeback, print_writeback, ""},
+    {"high_aggressiveness", K_SPECIAL, OFF(CNF_Config, writeback[CND_HIGH_AGGR]), 0, 0, 0, 0, 1, set_writeback, print_writeback, ""},
+    {"wheel_wear", K_SPECIAL, OFF(CNF_Config, writeback[CND_WHEEL_WEAR]), 0, 0, 0, 0, 1, set_writeback, print_writeback, ""},
+    {"burn_risk", K_SPECIAL, OFF(CNF_Config, writeback[CND_BURN_RISK]), 0, 0, 0, 0, 1, set_writeback, print_writeback, ""},
+    {"overload", K_SPECIAL, OFF(CNF_Config, writeback[CND_OVERLOAD]), 0, 0, 0, 0, 1, set_writeback, print_writeback, ""},
+    {"overspeed", K_SPECIAL, OFF(CNF_Config, writeback[CND_OVERSPEED]), 0, 0, 0, 0, 1, set_writeback, print_writeback, ""},
+    {"communication_lost", K_SPECIAL, OFF(CNF_Config, writeback[CND_COMM_LOST]), 0, 0, 0, 0, 1, set_writeback, print_writeback, ""},
+    {"stale_data", K_SPECIAL, OFF(CNF_Config, writeback[CND_STALE_DATA]), 0, 0, 0, 0, 1, set_writeback, print_writeback, ""},
+    {"logging_failed", K_SPECIAL, OFF(CNF_Config, writeback[CND_LOGGING_FAILED]), 0, 0, 0, 0, 1, set_writeback, print_writeback, ""},
 };
 
 /* [shifts] keys hold text until the end, then SFT_Parse checks them together. */
@@ -255,6 +352,9 @@ static const section_desc sections[] = {
     {"wheel", S_WHEEL, 1, wheel_keys, N(wheel_keys)},
     {"shifts", S_SHIFTS, 0, shift_keys, N(shift_keys)},
     {"segmentation", S_SEGMENTATION, 0, segmentation_keys, N(segmentation_keys)},
+    {"condition", S_CONDITION, 0, condition_keys, N(condition_keys)},
+    {"alerts", S_ALERTS, 0, alert_keys, N(alert_keys)},
+    {"writeback", S_WRITEBACK, 0, writeback_keys, N(writeback_keys)},
 };
 
 /* ---- parsing state ---------------------------------------------------- */
@@ -266,6 +366,7 @@ typedef struct parse_state {
   shift_text shifts;
   FILE *file;
   int line;               /* line being parsed */
+  int header_line;        /* line of the latest [section] header, 0 = none */
   int long_line;          /* first over-long line, 0 = none */
   char err[512];          /* first error, without the file name */
   int err_line;
@@ -274,9 +375,10 @@ typedef struct parse_state {
   void *target;           /* struct the current section's keys go to */
   int sec_line;
   unsigned char seen[64]; /* keys seen in the current section (bit per key index) */
-  int machine_line, modbus_line, shifts_line, segmentation_line;
+  int machine_line, modbus_line, shifts_line, segmentation_line, condition_line, alerts_line, writeback_line;
   int channel_line[RMP_CHANNEL_COUNT];
   int range_min_set, range_max_set;
+  int replay;             /* checks for a replay: no Modbus, no marked speed needed */
 } parse_state;
 
 __attribute__((format(printf, 3, 4))) static int fail(parse_state *p, int line, const char *fmt, ...)
@@ -353,6 +455,8 @@ static void wheel_init(CNF_Wheel *w)
   w->burn_margin = 0.8;
   w->min_g_ratio = 20.0;
   w->wear_drop = 0.8;
+  w->aggr_min = 5.0;
+  w->aggr_max = 50.0;
 }
 
 static void config_init(CNF_Config *c)
@@ -371,6 +475,9 @@ static void config_init(CNF_Config *c)
   if (c->map.max_regs == 0)
     c->map.max_regs = RMP_MAX_REGS;
   SEG_DefaultConfig(&c->detect);
+  CND_DefaultSettings(&c->cond);
+  c->comm_lost_after_s = 2.0;
+  c->hook_timeout_s = 10.0;
   char err[128];
   SFT_Parse(&c->shifts, "06:00,14:00,22:00", "early,late,night", err, sizeof err);
 }
@@ -378,12 +485,13 @@ static void config_init(CNF_Config *c)
 /* Opens a section; returns 0 when it is refused. */
 static int open_section(parse_state *p, const char *section)
 {
+  const int at = p->header_line ? p->header_line : p->line; /* where the header is */
   CNF_Config *c = p->cfg;
   char kindname[64];
   const char *dot = strchr(section, '.');
   size_t klen = dot ? (size_t)(dot - section) : strlen(section);
   if (klen >= sizeof kindname)
-    return fail(p, p->line, "unknown section [%s]", section);
+    return fail(p, at, "unknown section [%s]", section);
   memcpy(kindname, section, klen);
   kindname[klen] = '\0';
   const char *sub = dot ? dot + 1 : NULL;
@@ -392,12 +500,12 @@ static int open_section(parse_state *p, const char *section)
     if (strcmp(sections[i].name, kindname) == 0 && (sections[i].named == (sub != NULL)))
       p->sec = &sections[i];
   if (!p->sec)
-    return fail(p, p->line,
+    return fail(p, at,
                 "unknown section [%s] (expected machine, modbus, channel.NAME, job.NAME, wheel.NAME, shifts, "
-                "segmentation)",
+                "segmentation, condition, alerts, writeback)",
                 section);
   snprintf(p->section, sizeof p->section, "%s", section);
-  p->sec_line = p->line;
+  p->sec_line = at;
   memset(p->seen, 0, sizeof p->seen);
   int *once = NULL;
   switch (p->sec->kind) {
@@ -405,10 +513,13 @@ static int open_section(parse_state *p, const char *section)
   case S_MODBUS: once = &p->modbus_line; p->target = c; break;
   case S_SHIFTS: once = &p->shifts_line; p->target = &p->shifts; break;
   case S_SEGMENTATION: once = &p->segmentation_line; p->target = &c->detect; break;
+  case S_CONDITION: once = &p->condition_line; p->target = c; break;
+  case S_ALERTS: once = &p->alerts_line; p->target = c; break;
+  case S_WRITEBACK: once = &p->writeback_line; p->target = c; break;
   case S_CHANNEL: {
     int ch = RMP_ChannelFromName(sub);
     if (ch < 0)
-      return fail(p, p->line, "unknown channel [channel.%s] (expected %s)", sub, RMP_ChannelList());
+      return fail(p, at, "unknown channel [channel.%s] (expected %s)", sub, RMP_ChannelList());
     once = &p->channel_line[ch];
     p->target = &c->map.ch[ch];
     if (!c->map.ch[ch].enabled) {
@@ -421,33 +532,33 @@ static int open_section(parse_state *p, const char *section)
   case S_WHEEL: {
     int is_job = p->sec->kind == S_JOB;
     if (!valid_name(sub))
-      return fail(p, p->line, "[%s]: a name is 1 to %d letters, digits, '_' or '-'", section, CNF_NAME - 1);
+      return fail(p, at, "[%s]: a name is 1 to %d letters, digits, '_' or '-'", section, CNF_NAME - 1);
     int n = is_job ? c->n_jobs : c->n_wheels;
     for (int i = 0; i < n; i++)
       if (strcmp(is_job ? c->jobs[i].name : c->wheels[i].name, sub) == 0)
-        return fail(p, p->line, "section [%s] appears twice (first at line %d)", section,
+        return fail(p, at, "section [%s] appears twice (first at line %d)", section,
                     is_job ? c->jobs[i].line : c->wheels[i].line);
     if (n == (is_job ? CNF_MAX_JOBS : CNF_MAX_WHEELS))
-      return fail(p, p->line, "too many [%s.*] sections (at most %d)", kindname, is_job ? CNF_MAX_JOBS : CNF_MAX_WHEELS);
+      return fail(p, at, "too many [%s.*] sections (at most %d)", kindname, is_job ? CNF_MAX_JOBS : CNF_MAX_WHEELS);
     if (is_job) {
       CNF_Job *j = &c->jobs[c->n_jobs++];
       job_init(j);
       snprintf(j->name, sizeof j->name, "%s", sub);
-      j->line = p->line;
+      j->line = at;
       p->target = j;
     } else {
       CNF_Wheel *w = &c->wheels[c->n_wheels++];
       wheel_init(w);
       snprintf(w->name, sizeof w->name, "%s", sub);
-      w->line = p->line;
+      w->line = at;
       p->target = w;
     }
     return 1;
   }
   }
   if (*once)
-    return fail(p, p->line, "section [%s] appears twice (first at line %d)", section, *once);
-  *once = p->line;
+    return fail(p, at, "section [%s] appears twice (first at line %d)", section, *once);
+  *once = at;
   return 1;
 }
 
@@ -558,11 +669,15 @@ static char *reader(char *str, int num, void *stream)
   const char *q = str;
   while (*q == ' ' || *q == '\t')
     q++;
-  if (*q == '[')
+  if (*q == '[' && strchr(q, ']')) { /* without ']' inih refuses the line and stays in the section */
     p->section[0] = '\0'; /* a header: the next key opens it, even when repeated */
+    p->header_line = p->line; /* inih names a section only with its first key */
+  }
   size_t n = strlen(str);
   if (n == (size_t)num - 1 && str[n - 1] != '\n' && !feof(p->file)) {
-    fail(p, p->line, "line longer than %d characters", CNF_LINE_MAX);
+    /* fgets filled inih's buffer without reaching the newline: the line has at least
+     * CNF_LINE_MAX - 1 characters, one more than fits with its newline and NUL. */
+    fail(p, p->line, "line longer than %d characters", CNF_LINE_MAX - 2);
     return NULL;
   }
   return str;
@@ -607,6 +722,8 @@ static int check_config(parse_state *p)
   if (!c->wheel)
     return fail(p, p->machine_line, "[machine] wheel: no section [wheel.%s]", c->wheel_name);
 
+  if (p->replay)
+    goto modbus_done;
   /* Modbus */
   if (c->modbus.transport == MBC_RTU && !c->modbus.device[0])
     return fail(p, p->modbus_line, "[modbus] device: required for transport rtu");
@@ -634,6 +751,7 @@ static int check_config(parse_state *p)
   RMP_Plan plan;
   if (RMP_MakePlan(&c->map, &plan, why, sizeof why) != 0)
     return fail(p, 0, "register map: %s", why);
+modbus_done:
 
   /* Shifts */
   if (p->shifts_line) {
@@ -661,12 +779,12 @@ static int check_config(parse_state *p)
   }
   for (int i = 0; i < c->n_wheels; i++) {
     CNF_Wheel *w = &c->wheels[i];
-    if (isnan(w->max_speed_m_s))
+    if (isnan(w->max_speed_m_s) && !p->replay)
       return fail(p, w->line, "[wheel.%s] max_speed_m_s: required (the wheel's marked maximum operating speed)",
                   w->name);
     if (!(w->aggr_low < w->aggr_high))
       return fail(p, w->line, "[wheel.%s] aggr_high: must be above aggr_low", w->name);
-    if (!c->map.ch[RMP_WHEEL_DIAMETER].enabled && isnan(w->diameter_mm))
+    if (!c->map.ch[RMP_WHEEL_DIAMETER].enabled && isnan(w->diameter_mm) && !p->replay)
       return fail(p, w->line, "[wheel.%s] diameter_mm: required when no [channel.wheel_diameter] is read", w->name);
   }
   if (c->job->seg.geometry == GRD_INTERNAL && !isnan(c->wheel->diameter_mm) &&
@@ -674,6 +792,18 @@ static int check_config(parse_state *p)
     return fail(p, c->wheel->line, "[wheel.%s] diameter_mm: internal grinding needs a wheel smaller than the bore",
                 c->wheel->name);
   c->modbus.fallback_wheel_diameter_mm = isnan(c->wheel->diameter_mm) ? 0.0 : c->wheel->diameter_mm;
+  if (!(c->wheel->aggr_min < c->wheel->aggr_low && c->wheel->aggr_high < c->wheel->aggr_max))
+    return fail(p, c->wheel->line, "[wheel.%s] aggr_min < aggr_low < aggr_high < aggr_max must hold", c->wheel->name);
+  CND_Settings cs;
+  CNF_CondSettings(c, &cs);
+  if (CND_CheckSettings(&cs, why, sizeof why) != 0)
+    return fail(p, p->condition_line, "[condition] %s", why);
+  for (int k = 0; k < CND_CONDITION_COUNT; k++)
+    for (int j = 0; j < k; j++)
+      if (c->writeback[k].kind && c->writeback[k].kind == c->writeback[j].kind &&
+          c->writeback[k].address == c->writeback[j].address)
+        return fail(p, p->writeback_line, "[writeback] %s and %s write the same address %u", CND_KindName(j),
+                    CND_KindName(k), c->writeback[k].address);
   SEG_Config merged;
   CNF_SegConfig(c, &merged);
   const char *bad = SEG_CheckConfig(&merged);
@@ -684,10 +814,41 @@ static int check_config(parse_state *p)
 
 void CNF_SegConfig(const CNF_Config *c, SEG_Config *out) { job_seg(c, c->job, c->wheel, out); }
 
-int CNF_Load(CNF_Config *c, const char *path, char *err, size_t errlen)
+void CNF_CondSettings(const CNF_Config *c, CND_Settings *out)
+{
+  *out = c->cond;
+  const CNF_Wheel *w = c->wheel;
+  snprintf(out->wheel.name, sizeof out->wheel.name, "%s", w->name);
+  out->wheel.aggr_low = w->aggr_low;
+  out->wheel.aggr_high = w->aggr_high;
+  out->wheel.aggr_min = w->aggr_min;
+  out->wheel.aggr_max = w->aggr_max;
+  out->wheel.dull_limit = w->dull_limit;
+  out->wheel.burn_margin = w->burn_margin;
+  out->wheel.min_g_ratio = w->min_g_ratio;
+  out->wheel.max_speed_m_s = w->max_speed_m_s;
+  out->wheel.wear_drop_ratio = w->wear_drop;
+  out->machine.spindle_rating_w = c->spindle_rating_w;
+  out->machine.wheel_diameter_mm = w->diameter_mm;
+  snprintf(out->job.name, sizeof out->job.name, "%s", c->job->name);
+  out->job.width_mm = c->job->seg.width_mm;
+  out->job.wear_width_mm = NAN;
+  out->job.diameter_measured = c->map.ch[RMP_WHEEL_DIAMETER].enabled;
+}
+
+static void report(const parse_state *p, const char *path, char *err, size_t errlen)
+{
+  if (p->err_line > 0)
+    snprintf(err, errlen, "%s:%d: %s", path, p->err_line, p->err);
+  else
+    snprintf(err, errlen, "%s: %s", path, p->err);
+}
+
+static int load(CNF_Config *c, const char *path, int replay, char *err, size_t errlen)
 {
   static parse_state p; /* large; the daemon loads one file at a time */
   memset(&p, 0, sizeof p);
+  p.replay = replay;
   config_init(c);
   snprintf(c->path, sizeof c->path, "%s", path);
   p.cfg = c;
@@ -698,17 +859,123 @@ int CNF_Load(CNF_Config *c, const char *path, char *err, size_t errlen)
   }
   int rc = ini_parse_stream(reader, &p, handler, &p);
   fclose(p.file);
-  if (!p.err[0] && rc > 0)
+  if (rc > 0 && (!p.err[0] || rc < p.err_line)) {
+    /* inih goes on after a line it cannot read: that line came first. */
+    p.err[0] = '\0';
     fail(&p, rc, "not a key = value line or a [section] header");
+  }
   if (!p.err[0] && rc < 0)
     fail(&p, 0, "cannot be read");
   if (!p.err[0])
     check_config(&p);
   if (p.err[0]) {
-    if (p.err_line > 0)
-      snprintf(err, errlen, "%s:%d: %s", path, p.err_line, p.err);
-    else
-      snprintf(err, errlen, "%s: %s", path, p.err);
+    report(&p, path, err, errlen);
+    return -1;
+  }
+  return 0;
+}
+
+int CNF_Load(CNF_Config *c, const char *path, char *err, size_t errlen) { return load(c, path, 0, err, errlen); }
+
+int CNF_LoadForReplay(CNF_Config *c, const char *path, char *err, size_t errlen)
+{
+  return load(c, path, 1, err, errlen);
+}
+
+int CNF_FromRecording(CNF_Config *c, const REC_Meta *m, char *err, size_t errlen)
+{
+  static parse_state p;
+  memset(&p, 0, sizeof p);
+  p.replay = 1;
+  p.cfg = c;
+  config_init(c);
+  snprintf(c->path, sizeof c->path, "(recording metadata)");
+  snprintf(c->machine, sizeof c->machine, "%.32s", valid_name(m->machine) ? m->machine : "machine");
+  CNF_Job *j = &c->jobs[c->n_jobs++];
+  job_init(j);
+  snprintf(j->name, sizeof j->name, "%.32s", valid_name(m->job) ? m->job : "recorded");
+  j->seg.geometry = m->geometry;
+  j->seg.width_mm = m->grinding_width_mm;
+  j->seg.workpiece_diameter_mm = m->workpiece_diameter_mm;
+  CNF_Wheel *w = &c->wheels[c->n_wheels++];
+  wheel_init(w);
+  snprintf(w->name, sizeof w->name, "%.32s", valid_name(m->wheel) ? m->wheel : "recorded");
+  w->diameter_mm = m->wheel_diameter_mm;
+  c->map.ch[RMP_WHEEL_DIAMETER].enabled = 1; /* the recording may carry it: the model looks */
+  snprintf(c->job_name, sizeof c->job_name, "%s", j->name);
+  snprintf(c->wheel_name, sizeof c->wheel_name, "%s", w->name);
+  p.machine_line = 1; /* the metadata stands for the section */
+  check_config(&p);
+  if (p.err[0]) {
+    report(&p, "recording metadata", err, errlen);
+    return -1;
+  }
+  return 0;
+}
+
+int CNF_Set(CNF_Config *c, const char *assignment, char *err, size_t errlen)
+{
+  static parse_state p;
+  memset(&p, 0, sizeof p);
+  p.cfg = c;
+  p.replay = 1;
+  char buf[512];
+  snprintf(buf, sizeof buf, "%s", assignment);
+  char *eq = strchr(buf, '=');
+  char *dot = strchr(buf, '.');
+  if (!eq || !dot || dot > eq) {
+    snprintf(err, errlen, "\"%s\": expected SECTION.KEY=VALUE", assignment);
+    return -1;
+  }
+  *eq = '\0';
+  const char *value = eq + 1;
+  char *key = strrchr(buf, '.');
+  *key++ = '\0';
+  /* job.KEY and wheel.KEY mean the active job and wheel. */
+  char section[600];
+  if (strcmp(buf, "job") == 0 || strcmp(buf, "wheel") == 0)
+    snprintf(section, sizeof section, "%s.%s", buf, strcmp(buf, "job") == 0 ? c->job_name : c->wheel_name);
+  else
+    snprintf(section, sizeof section, "%s", buf);
+  /* Find the section without creating a new job or wheel. */
+  if (strncmp(section, "job.", 4) == 0 || strncmp(section, "wheel.", 6) == 0) {
+    int is_job = section[0] == 'j';
+    const char *name = section + (is_job ? 4 : 6);
+    p.sec = &sections[is_job ? 3 : 4];
+    p.target = NULL;
+    for (int i = 0; i < (is_job ? c->n_jobs : c->n_wheels); i++)
+      if (strcmp(is_job ? c->jobs[i].name : c->wheels[i].name, name) == 0)
+        p.target = is_job ? (void *)&c->jobs[i] : (void *)&c->wheels[i];
+    if (!p.target) {
+      snprintf(err, errlen, "%s: no section [%s]", assignment, section);
+      return -1;
+    }
+    snprintf(p.section, sizeof p.section, "%.63s", section);
+  } else if (!open_section(&p, section)) {
+    snprintf(err, errlen, "%s: %s", assignment, p.err);
+    return -1;
+  }
+  if (strcmp(section, "shifts") == 0) {
+    snprintf(err, errlen, "%s: the shift schedule cannot be set here", assignment);
+    return -1;
+  }
+  if (!handler(&p, section, key, value) || p.err[0]) {
+    snprintf(err, errlen, "%s: %s", assignment, p.err);
+    return -1;
+  }
+  return 0;
+}
+
+int CNF_Recheck(CNF_Config *c, int replay, char *err, size_t errlen)
+{
+  static parse_state p;
+  memset(&p, 0, sizeof p);
+  p.cfg = c;
+  p.replay = replay;
+  p.machine_line = 1;
+  check_config(&p);
+  if (p.err[0]) {
+    snprintf(err, errlen, "%s", p.err);
     return -1;
   }
   return 0;
@@ -778,6 +1045,9 @@ void CNF_Print(const CNF_Config *c, FILE *out)
   SFT_Format(&c->shifts, starts, sizeof starts, names, sizeof names);
   fprintf(out, "[shifts]\nstarts = %s\nnames = %s\n\n", starts, names);
   print_section(out, "segmentation", &sections[6], &c->detect);
+  print_section(out, "condition", &sections[7], c);
+  print_section(out, "alerts", &sections[8], c);
+  print_section(out, "writeback", &sections[9], c);
 }
 
 void CNF_PrintKeys(FILE *out)

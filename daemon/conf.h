@@ -5,7 +5,9 @@
 #include <stddef.h>
 #include <stdio.h>
 
+#include "condition.h"
 #include "mbclient.h"
+#include "recording.h"
 #include "regmap.h"
 #include "segment.h"
 #include "shift.h"
@@ -14,7 +16,7 @@
 #define CNF_MAX_JOBS 16
 #define CNF_MAX_WHEELS 16
 #define CNF_PATH 256
-#define CNF_LINE_MAX 200  /* inih's line limit: longer lines are refused with their number */
+#define CNF_LINE_MAX 200  /* inih's line buffer, bytes: lines over CNF_LINE_MAX - 2 characters are refused */
 
 typedef struct CNF_Job {
   char name[CNF_NAME];   /* [job.NAME] */
@@ -34,7 +36,17 @@ typedef struct CNF_Wheel {
   double burn_margin;      /* fraction of Malkin's threshold that raises burn risk */
   double min_g_ratio;      /* G-ratio below which wear is excessive */
   double wear_drop;        /* fraction of the reference energy that signals grit pull-out */
+  double aggr_min;         /* overall working range of aggressiveness, low end */
+  double aggr_max;         /* high end */
 } CNF_Wheel;
+
+/* Write-back of one condition to the controller while it is active. */
+typedef enum CNF_WriteKind { CNF_WB_NONE = 0, CNF_WB_COIL, CNF_WB_REGISTER } CNF_WriteKind;
+typedef struct CNF_WriteBack {
+  CNF_WriteKind kind;  /* none, coil or holding register */
+  unsigned address;    /* protocol address */
+  unsigned value;      /* register value while active (coils: on) */
+} CNF_WriteBack;
 
 typedef struct CNF_Config {
   char path[CNF_PATH];        /* the file read */
@@ -62,11 +74,33 @@ typedef struct CNF_Config {
   SFT_Schedule shifts;
   /* [segmentation]: detection settings, copied into the active job's SEG_Config */
   SEG_Config detect;
+  /* [condition]: the wheel-condition model (wheel, machine and job parts are
+   * filled from the active sections by CNF_CondSettings) */
+  CND_Settings cond;
+  double comm_lost_after_s;   /* [machine]: failed polls for this long raise communication_lost */
+  /* [alerts] */
+  char hook[CNF_PATH];        /* program run for each alert event ("" = none) */
+  double hook_timeout_s;      /* s before the hook is killed */
+  /* [writeback] */
+  CNF_WriteBack writeback[CND_CONDITION_COUNT];
 } CNF_Config;
+
+/* The condition-model settings for the active job and wheel. */
+void CNF_CondSettings(const CNF_Config *c, CND_Settings *out);
 
 /* Reads and validates path. Returns 0, or -1 with "file:line: message" in err
  * (the file alone when no line applies). */
 int CNF_Load(CNF_Config *c, const char *path, char *err, size_t errlen);
+/* The same for a replay: no Modbus map is needed, nor a marked wheel speed. */
+int CNF_LoadForReplay(CNF_Config *c, const char *path, char *err, size_t errlen);
+/* A configuration from a recording's metadata alone (machine, geometry, width,
+ * diameters); everything else at its default. */
+int CNF_FromRecording(CNF_Config *c, const REC_Meta *m, char *err, size_t errlen);
+/* Sets one key: "segmentation.min_pass_s=0.5", "wheel.dull_limit=1.2" (the active
+ * wheel), "wheel.NAME.KEY", "job.KEY". Returns 0, or -1 with a message. */
+int CNF_Set(CNF_Config *c, const char *assignment, char *err, size_t errlen);
+/* The checks across keys again, after CNF_Set. */
+int CNF_Recheck(CNF_Config *c, int replay, char *err, size_t errlen);
 /* The segmentation settings of the active job with the detection settings. */
 void CNF_SegConfig(const CNF_Config *c, SEG_Config *out);
 /* Prints the effective configuration (every key, defaults included) as INI. */

@@ -4,6 +4,8 @@
 #include <sysexits.h>
 
 #include "calc.h"
+#include "replay.h"
+#include "status_cmd.h"
 
 static const char usage_text[] =
     "usage: gritline COMMAND [options]\n"
@@ -11,6 +13,9 @@ static const char usage_text[] =
     "Commands:\n"
     "  calc      grinding figures for one set of conditions (aggressiveness, chip\n"
     "            thickness, burn threshold, ...)\n"
+    "  replay    feed recordings through the daemon's analysis again (diagnosis, what-if)\n"
+    "  status    what the running daemon sees now (add --watch to follow it)\n"
+    "  dress     tell the running daemon the wheel has just been dressed\n"
     "\n"
     "gritline COMMAND --help describes each command.\n"
     "Caution: never exceed the wheel's marked maximum operating speed; gritline's figures\n"
@@ -24,6 +29,9 @@ struct command {
 
 static const struct command commands[] = {
     {"calc", CALC_Main},
+    {"replay", RPL_Main},
+    {"status", STC_StatusMain},
+    {"dress", STC_DressMain},
 };
 
 int main(int argc, char **argv)

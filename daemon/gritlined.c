@@ -17,14 +17,17 @@
 #include <unistd.h>
 
 #include "conf.h"
+#include "control.h"
+#include "hook.h"
 #include "log.h"
 #include "mbclient.h"
 #include "monitor.h"
+#include "statusjson.h"
 
 #define DEFAULT_CONFIG "/etc/gritline/gritline.conf"
 
 static const char usage_text[] =
-    "usage: gritlined [-c FILE] [--data-dir DIR] [--run-for SECONDS]\n"
+    "usage: gritlined [-c FILE] [--data-dir DIR] [--socket PATH] [--run-for SECONDS]\n"
     "       gritlined --check-config FILE\n"
     "\n"
     "Monitors a grinding machine: polls spindle power and axis feeds over Modbus,\n"
@@ -34,6 +37,7 @@ static const char usage_text[] =
     "  -c, --config FILE      configuration file (default " DEFAULT_CONFIG ")\n"
     "      --check-config FILE  validate FILE, print the effective configuration, exit\n"
     "      --data-dir DIR     use DIR instead of the configured data_dir\n"
+    "      --socket PATH      control socket (default <runtime_dir>/<machine>.sock)\n"
     "      --run-for SECONDS  stop by itself after SECONDS (demos and tests)\n"
     "  -h, --help             this text\n"
     "      --version          print the version\n"
@@ -62,6 +66,14 @@ typedef struct daemon_state {
   double next_status;       /* monotonic s */
   unsigned long passes;
   char last_event[200];
+  CTL_Server ctl;           /* control socket */
+  const char *socket_path;  /* --socket */
+  HOK_Hooks hooks;          /* exec hook */
+  int wb_want[CND_CONDITION_COUNT];  /* write-back: 1 on, 0 off, per condition */
+  int wb_done[CND_CONDITION_COUNT];  /* what the controller holds: -1 unknown */
+  unsigned long long reconnects;     /* seen, to know when the controller forgot */
+  unsigned long polls, failed_polls;
+  int connected;
 } daemon_state;
 
 static double now_mono(void)
@@ -78,22 +90,27 @@ static double now_real(void)
   return (double)ts.tv_sec + ts.tv_nsec * 1e-9;
 }
 
-static void on_pass(void *ctx, const SEG_Pass *p, const PLG_PassExtra *x)
+static void on_pass(void *ctx, const SEG_Pass *p, const CYC_PassInfo *x)
 {
   daemon_state *d = ctx;
   char flags[160];
   d->passes++;
   LOG_Message(LOG_INFO,
               "pass %lu: %.2f s, ae %.4f mm, vw %.0f mm/min, vs %.2f m/s, Aggr %.2f, P %.0f W, u %.2f J/mm^3, "
-              "u/u* %.2f, cycle %lu pass %lu%s%s",
+              "u/u* %.2f, r %.3f, cycle %lu pass %lu%s%s",
               p->number, p->duration_s, p->depth_mm, p->work_speed_mm_s * 60.0, p->wheel_speed_m_s,
-              p->aggressiveness, p->net_power_mean_w, p->specific_energy_j_mm3, p->burn_ratio, x->dress_cycle,
-              x->passes_since_dress, p->flags ? " " : "", SEG_FormatFlags(p->flags, flags, sizeof flags));
+              p->aggressiveness, p->net_power_mean_w, p->specific_energy_j_mm3, p->burn_ratio, x->smoothed_ratio,
+              x->cycle, x->pass_in_cycle, p->flags ? " " : "", SEG_FormatFlags(p->flags, flags, sizeof flags));
 }
 
 static void on_event(void *ctx, const PLG_Event *e)
 {
   daemon_state *d = ctx;
+  CND_Kind k;
+  if (e->state != PLG_NOTE && CND_KindFromName(e->kind, &k) == 0 && k < CND_CONDITION_COUNT)
+    d->wb_want[k] = e->state == PLG_RAISED;
+  if (d->mon)
+    HOK_Alert(&d->hooks, e, MON_ShiftDir(d->mon), now_mono());
   LOG_Level lv = e->severity == PLG_CRITICAL ? LOG_ERR : e->severity == PLG_WARNING ? LOG_WARNING : LOG_NOTICE;
   if (e->state == PLG_CLEARED)
     lv = LOG_NOTICE;
@@ -119,15 +136,84 @@ static void send_status(daemon_state *d)
   if (p->number && n > 0 && (size_t)n < sizeof text)
     n += snprintf(text + n, sizeof text - (size_t)n, "; last pass Aggr %.1f, u %.1f J/mm^3", p->aggressiveness,
                   p->specific_energy_j_mm3);
+  if (n > 0 && (size_t)n < sizeof text)
+    n += snprintf(text + n, sizeof text - (size_t)n, "; conditions: %s", st.conditions);
   if (d->last_event[0] && n > 0 && (size_t)n < sizeof text)
     snprintf(text + n, sizeof text - (size_t)n, "; last event %s", d->last_event);
   sd_notify(0, text);
+}
+
+/* Only the addresses of the [writeback] section may ever be written. */
+static void writeback_allow(const CNF_Config *c, MBC_Config *mc)
+{
+  mc->n_write_coils = mc->n_write_registers = 0;
+  for (int k = 0; k < CND_CONDITION_COUNT; k++) {
+    const CNF_WriteBack *w = &c->writeback[k];
+    if (w->kind == CNF_WB_COIL && mc->n_write_coils < MBC_MAX_WRITABLE)
+      mc->write_coils[mc->n_write_coils++] = (uint16_t)w->address;
+    else if (w->kind == CNF_WB_REGISTER && mc->n_write_registers < MBC_MAX_WRITABLE)
+      mc->write_registers[mc->n_write_registers++] = (uint16_t)w->address;
+  }
+}
+
+/* Brings the controller's lamps in line with the active conditions; what
+ * fails is tried again after the next good poll. */
+static void writeback_sync(daemon_state *d)
+{
+  MBC_Counters cnt;
+  MBC_GetCounters(d->client, &cnt);
+  if (cnt.reconnects != d->reconnects) {
+    d->reconnects = cnt.reconnects;
+    for (int k = 0; k < CND_CONDITION_COUNT; k++)
+      d->wb_done[k] = -1; /* a controller that restarted may have forgotten */
+  }
+  for (int k = 0; k < CND_CONDITION_COUNT; k++) {
+    const CNF_WriteBack *w = &d->cfg.writeback[k];
+    if (w->kind == CNF_WB_NONE || d->wb_done[k] == d->wb_want[k])
+      continue;
+    int rc = w->kind == CNF_WB_COIL ? MBC_WriteCoil(d->client, w->address, d->wb_want[k])
+                                    : MBC_WriteRegister(d->client, w->address, (uint16_t)(d->wb_want[k] ? w->value : 0));
+    if (rc == 0)
+      d->wb_done[k] = d->wb_want[k];
+    else
+      LOG_Message(LOG_WARNING, "write-back of %s to %s %u failed: %s", CND_KindName(k),
+                  w->kind == CNF_WB_COIL ? "coil" : "register", w->address, MBC_LastError(d->client));
+  }
+}
+
+static long status_json(void *ctx, char *buf, size_t size)
+{
+  daemon_state *d = ctx;
+  MBC_Counters cnt;
+  MBC_GetCounters(d->client, &cnt);
+  MON_Status st;
+  MON_GetStatus(d->mon, &st);
+  double now = d->cfg.timestamp_controller
+                   ? (isnan(d->last_clock) ? NAN : d->last_clock + (now_mono() - d->last_clock_mono))
+                   : now_real();
+  STJ_Link link = {cnt.connected, now, d->polls, d->failed_polls, MBC_LastError(d->client), "live"};
+  return STJ_Format(&d->cfg, d->mon, &link, buf, size);
+}
+
+static int mark_dress(void *ctx, const char *trigger, const char *note, char *why, size_t whylen)
+{
+  daemon_state *d = ctx;
+  if (!d->started) {
+    snprintf(why, whylen, "no sample yet: the time of the dress is unknown");
+    return -1;
+  }
+  char text[300];
+  snprintf(text, sizeof text, "%s%s%s", trigger, note && *note ? " " : "", note ? note : "");
+  MON_Mark(d->mon, -1.0, "dress", text);
+  LOG_Message(LOG_NOTICE, "dress marked (%s)", text);
+  return 0;
 }
 
 static int make_client(daemon_state *d, const CNF_Config *c)
 {
   char err[256];
   MBC_Config mc = c->modbus;
+  writeback_allow(c, &mc);
   mc.stale_s = 0.0; /* frozen values are judged by the pipeline, so replays judge alike */
   MBC_Client *cl = MBC_Create(&mc, &c->map, err, sizeof err);
   if (!cl) {
@@ -138,6 +224,9 @@ static int make_client(daemon_state *d, const CNF_Config *c)
     MBC_Destroy(d->client);
   d->client = cl;
   d->connected_logged = -1;
+  d->reconnects = 0;
+  for (int k = 0; k < CND_CONDITION_COUNT; k++)
+    d->wb_done[k] = -1;
   return 0;
 }
 
@@ -161,6 +250,9 @@ static void poll_once(daemon_state *d)
   MBC_Status st = MBC_Poll(d->client, now_mono(), &s, &clock_s);
   double mono = now_mono();
   log_connection(d, st);
+  d->polls++;
+  if (SMP_IsEmpty(&s))
+    d->failed_polls++;
   if (d->cfg.timestamp_controller) {
     if (!isnan(clock_s)) {
       d->last_clock = clock_s;
@@ -184,6 +276,8 @@ static void poll_once(daemon_state *d)
     d->started = 1;
   }
   MON_Feed(d->mon, &s);
+  if (st == MBC_ALL_READ || st == MBC_PARTLY_READ)
+    writeback_sync(d);
 }
 
 static void reload(daemon_state *d)
@@ -207,6 +301,7 @@ static void reload(daemon_state *d)
       d->cfg.job = &d->cfg.jobs[d->next.job - d->next.jobs];
       d->cfg.wheel = &d->cfg.wheels[d->next.wheel - d->next.wheels];
       MON_Reconfigure(d->mon, &d->cfg);
+      HOK_Init(&d->hooks, d->cfg.hook, d->cfg.hook_timeout_s, d->cfg.machine);
       snprintf(text, sizeof text, "loaded: %s, job %s, wheel %s", d->cfg.path, d->cfg.job->name, d->cfg.wheel->name);
       LOG_Message(LOG_NOTICE, "configuration %s", text);
       if (d->started)
@@ -257,11 +352,15 @@ static int run(daemon_state *d, double run_for)
   double t0 = now_mono();
   int stop = 0;
   while (!stop) {
-    struct pollfd pfd[2] = {{tfd, POLLIN, 0}, {sfd, POLLIN, 0}};
-    if (poll(pfd, 2, 1000) < 0 && errno != EINTR) {
+    struct pollfd pfd[2 + 1 + CTL_MAX_CLIENTS] = {{tfd, POLLIN, 0}, {sfd, POLLIN, 0}};
+    int nctl = CTL_PollFds(&d->ctl, pfd + 2, 1 + CTL_MAX_CLIENTS);
+    if (poll(pfd, (nfds_t)(2 + nctl), d->hooks.len || d->hooks.runs ? 200 : 1000) < 0 && errno != EINTR) {
       LOG_Message(LOG_ERR, "poll: %s", strerror(errno));
       break;
     }
+    if (nctl)
+      CTL_Handle(&d->ctl, pfd + 2, nctl, now_mono());
+    HOK_Service(&d->hooks, now_mono());
     if (pfd[0].revents & POLLIN) {
       uint64_t ticks = 0;
       if (read(tfd, &ticks, sizeof ticks) == (ssize_t)sizeof ticks) {
@@ -294,6 +393,7 @@ static int run(daemon_state *d, double run_for)
   sd_notify(0, "STOPPING=1");
   if (d->started)
     MON_Mark(d->mon, -1.0, "stop", "gritlined stopped");
+  HOK_Finish(&d->hooks, 2.0);
   if (d->missed_ticks)
     LOG_Message(LOG_NOTICE, "%llu polls skipped because a poll overran its period",
                 (unsigned long long)d->missed_ticks);
@@ -307,9 +407,11 @@ int main(int argc, char **argv)
   static const struct option opts[] = {
       {"config", required_argument, NULL, 'c'},   {"check-config", required_argument, NULL, 'C'},
       {"data-dir", required_argument, NULL, 'd'}, {"run-for", required_argument, NULL, 'r'},
+      {"socket", required_argument, NULL, 's'},
       {"help", no_argument, NULL, 'h'},           {"version", no_argument, NULL, 'V'},
       {NULL, 0, NULL, 0},
   };
+  static daemon_state d; /* large: holds two configurations */
   const char *config = DEFAULT_CONFIG, *check = NULL, *data_dir = NULL;
   double run_for = 0.0;
   LOG_Initialise("gritlined");
@@ -320,6 +422,7 @@ int main(int argc, char **argv)
     case 'c': config = optarg; break;
     case 'C': check = optarg; break;
     case 'd': data_dir = optarg; break;
+    case 's': d.socket_path = optarg; break;
     case 'r': {
       char *end;
       run_for = strtod(optarg, &end);
@@ -339,7 +442,6 @@ int main(int argc, char **argv)
     fprintf(stderr, "gritlined: unexpected argument \"%s\" (see gritlined --help)\n", argv[optind]);
     return EX_USAGE;
   }
-  static daemon_state d; /* large: holds two configurations */
   char err[512];
   if (check) {
     if (CNF_Load(&d.cfg, check, err, sizeof err) != 0) {
@@ -363,7 +465,23 @@ int main(int argc, char **argv)
     LOG_Message(LOG_ERR, "%s", err);
     return EX_SOFTWARE;
   }
+  HOK_Init(&d.hooks, d.cfg.hook, d.cfg.hook_timeout_s, d.cfg.machine);
+  /* The lamps show what the restored model holds, and are put out otherwise. */
+  const CND_State *cs = MON_Conditions(d.mon);
+  for (int k = 0; k < CND_CONDITION_COUNT; k++)
+    d.wb_want[k] = CND_IsActive(cs, (CND_Kind)k);
+  char sock[CNF_PATH + 64];
+  if (d.socket_path)
+    snprintf(sock, sizeof sock, "%s", d.socket_path);
+  else
+    snprintf(sock, sizeof sock, "%s/%s.sock", d.cfg.runtime_dir, d.cfg.machine);
+  CTL_Handler h = {&d, status_json, mark_dress};
+  if (CTL_Open(&d.ctl, sock, 0660, &h, err, sizeof err) != 0) {
+    LOG_Message(LOG_WARNING, "control socket unavailable, monitoring goes on without it: %s", err);
+    d.ctl.fd = -1;
+  }
   int rc = run(&d, run_for);
+  CTL_Close(&d.ctl);
   MON_Destroy(d.mon);
   MBC_Destroy(d.client);
   LOG_Message(LOG_NOTICE, "stopped");

@@ -2,20 +2,22 @@
 #include "monitor.h"
 
 #include <errno.h>
+#include <fcntl.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <unistd.h>
 
 #include "logfile.h"
 #include "recording.h"
 #include "shift.h"
 #include "stale.h"
 
-/* Failed polls for this long make "communication lost" (s). */
-#define COMM_LOST_AFTER_S 2.0
+#define MAX_EVENTS 32
+#define STATE_MAGIC "gritline condition state 1\n"
 
 struct MON_Monitor {
   CNF_Config cfg;          /* a private copy: reloads replace it */
@@ -23,57 +25,82 @@ struct MON_Monitor {
   char data_dir[CNF_PATH];
   MON_Sink sink;
   SEG_State seg;           /* pass segmentation */
+  CND_State cnd;           /* wheel-condition model */
+  CND_Settings cnd_set;    /* its settings */
+  int restored;            /* cnd came from the state file */
   STL_Tracker stale;       /* frozen channels, from the sample values */
   unsigned stale_active;   /* channels reported stale */
   int comm_lost;           /* communication_lost raised */
   double fail_since;       /* time of the first failed poll of the current run, NAN = none */
   unsigned long fail_run;  /* failed polls in the current run */
+  int log_failed;          /* logging_failed raised */
+  unsigned long lost_lines; /* lines dropped while it is */
+  double lost_from;        /* time of the first dropped sample */
   double last_time;        /* latest sample time */
   int have_shift;          /* files are open */
   SFT_Shift shift;         /* the shift they belong to */
   char dir[CNF_PATH + 128];
+  char state_path[CNF_PATH + 128];
   LGF_File samples, passes, events, cycles;
-  int io_failed;           /* a write failed and has not succeeded since */
-  /* dress cycles, kept here until the condition model takes them */
-  int have_dress;
-  double dress_count;
-  unsigned long cycle, passes_since_dress;
-  double volume_since_dress;
   MON_Status status;
+  CND_Event ev[MAX_EVENTS];
   char line[PLG_LINE_MAX];
 };
 
-static void report_io(MON_Monitor *m, const LGF_File *f, const char *what)
-{
-  if (m->io_failed)
-    return; /* once per episode */
-  m->io_failed = 1;
-  if (m->sink.io_error) {
-    char msg[700];
-    snprintf(msg, sizeof msg, "%s: %s: %s", f->path, what, strerror(errno));
-    m->sink.io_error(m->sink.ctx, msg);
-  }
-}
+/* ---- files --------------------------------------------------------------- */
 
-static int write_line(MON_Monitor *m, LGF_File *f, const char *line, long len)
+static void logging_failed(MON_Monitor *m, const LGF_File *f, double t);
+
+static int write_line(MON_Monitor *m, LGF_File *f, const char *line, long len, double t)
 {
-  if (len < 0 || !LGF_IsOpen(f))
+  if (len < 0)
     return -1;
-  if (LGF_Append(f, line, (size_t)len) != 0) {
-    report_io(m, f, "write failed, line dropped");
+  if (!LGF_IsOpen(f) || LGF_Append(f, line, (size_t)len) != 0) {
+    logging_failed(m, f, t);
     return -1;
-  }
-  if (m->io_failed && f != &m->samples) {
-    m->io_failed = 0; /* the note below goes to the events file, so it can only be written here */
   }
   return 0;
 }
 
-static void emit(MON_Monitor *m, PLG_Event *e)
+static void to_plg(const CND_Event *c, PLG_Event *e)
 {
-  write_line(m, &m->events, m->line, PLG_FormatEvent(e, m->line, sizeof m->line));
+  memset(e, 0, sizeof *e);
+  e->time = c->time;
+  snprintf(e->kind, sizeof e->kind, "%s", CND_KindName(c->kind));
+  e->severity = c->severity == CND_CRITICAL ? PLG_CRITICAL : c->severity == CND_WARNING ? PLG_WARNING : PLG_INFO;
+  e->state = c->state == CND_RAISED ? PLG_RAISED : c->state == CND_CLEARED ? PLG_CLEARED : PLG_NOTE;
+  e->pass = c->pass;
+  e->value = c->value;
+  e->limit = c->limit;
+  snprintf(e->message, sizeof e->message, "%s", c->message);
+}
+
+static void emit(MON_Monitor *m, const PLG_Event *e)
+{
+  write_line(m, &m->events, m->line, PLG_FormatEvent(e, m->line, sizeof m->line), e->time);
+  if (e->state != PLG_NOTE || strcmp(e->kind, "dress") == 0) {
+    if (m->status.n_recent == 8) {
+      memmove(m->status.recent, m->status.recent + 1, 7 * sizeof m->status.recent[0]);
+      m->status.n_recent--;
+    }
+    m->status.recent[m->status.n_recent++] = *e;
+  }
   if (m->sink.event)
     m->sink.event(m->sink.ctx, e);
+}
+
+static void save_state(MON_Monitor *m);
+
+static void emit_cnd(MON_Monitor *m, const CND_Event *ev, unsigned n)
+{
+  for (unsigned i = 0; i < n; i++) {
+    PLG_Event e;
+    to_plg(&ev[i], &e);
+    emit(m, &e);
+  }
+  CND_Summary(&m->cnd, m->status.conditions, sizeof m->status.conditions);
+  if (n)
+    save_state(m);
 }
 
 __attribute__((format(printf, 7, 8))) static void note(MON_Monitor *m, double t, const char *kind,
@@ -93,6 +120,41 @@ __attribute__((format(printf, 7, 8))) static void note(MON_Monitor *m, double t,
   vsnprintf(e.message, sizeof e.message, fmt, ap);
   va_end(ap);
   emit(m, &e);
+}
+
+/* Monitoring goes on when the disk fails: the condition is raised once, and
+ * lines are dropped (never half-written) until writing works again. */
+static void logging_failed(MON_Monitor *m, const LGF_File *f, double t)
+{
+  if (f == &m->samples)
+    m->lost_lines++;
+  if (m->log_failed)
+    return;
+  m->log_failed = 1;
+  m->lost_from = t;
+  char detail[700];
+  snprintf(detail, sizeof detail, "%s: %s", f->path[0] ? f->path : m->dir, strerror(errno ? errno : EIO));
+  if (m->sink.io_error)
+    m->sink.io_error(m->sink.ctx, detail);
+  CND_Event e;
+  if (CND_SetExternal(&m->cnd, CND_LOGGING_FAILED, 1, t, detail, &e) == 1)
+    emit_cnd(m, &e, 1);
+}
+
+static void logging_back(MON_Monitor *m, double t)
+{
+  if (!m->log_failed)
+    return;
+  m->log_failed = 0;
+  char text[160];
+  snprintf(text, sizeof text, "%lu samples not recorded since %.3f", m->lost_lines, m->lost_from);
+  long n = REC_FormatMark(t, "gap", text, m->line, sizeof m->line);
+  if (n > 0 && LGF_IsOpen(&m->samples))
+    LGF_Append(&m->samples, m->line, (size_t)n);
+  m->lost_lines = 0;
+  CND_Event e;
+  if (CND_SetExternal(&m->cnd, CND_LOGGING_FAILED, 0, t, text, &e) == 1)
+    emit_cnd(m, &e, 1);
 }
 
 static int mkdirs(const char *path)
@@ -119,19 +181,19 @@ static void close_files(MON_Monitor *m)
   m->have_shift = 0;
 }
 
-static int open_log(MON_Monitor *m, LGF_File *f, const char *name, const char *header)
+static int open_log(MON_Monitor *m, LGF_File *f, const char *name, const char *header, double t)
 {
   char path[sizeof m->dir + 32];
   snprintf(path, sizeof path, "%s/%s", m->dir, name);
   if (LGF_Open(f, path) != 0) {
     LGF_Init(f);
     snprintf(f->path, sizeof f->path, "%s", path);
-    report_io(m, f, "cannot open");
+    logging_failed(m, f, t);
     return -1;
   }
   if (f->created && header) {
     int n = snprintf(m->line, sizeof m->line, "%s\n", header);
-    write_line(m, f, m->line, n);
+    write_line(m, f, m->line, n, t);
   }
   return 0;
 }
@@ -170,24 +232,27 @@ static void open_shift(MON_Monitor *m, double t)
   LGF_Init(&m->passes);
   LGF_Init(&m->events);
   LGF_Init(&m->cycles);
+  snprintf(m->status.shift, sizeof m->status.shift, "%s", m->shift.label);
   if (mkdirs(m->dir) != 0) {
     snprintf(m->samples.path, sizeof m->samples.path, "%s", m->dir);
-    report_io(m, &m->samples, "cannot create the shift folder");
+    logging_failed(m, &m->samples, t);
     return;
   }
-  if (m->opt.record && open_log(m, &m->samples, "samples.csv", NULL) == 0 && m->samples.created) {
+  if (m->opt.record && open_log(m, &m->samples, "samples.csv", NULL, t) == 0 && m->samples.created) {
     REC_Meta meta;
     recording_meta(m, t, &meta);
     char head[2048];
-    write_line(m, &m->samples, head, REC_FormatHead(&meta, head, sizeof head));
+    write_line(m, &m->samples, head, REC_FormatHead(&meta, head, sizeof head), t);
   }
-  open_log(m, &m->passes, "passes.csv", PLG_PASSES_HEADER);
-  open_log(m, &m->events, "events.csv", PLG_EVENTS_HEADER);
-  open_log(m, &m->cycles, "dress_cycles.csv", PLG_CYCLES_HEADER);
+  open_log(m, &m->passes, "passes.csv", PLG_PASSES_HEADER, t);
+  open_log(m, &m->events, "events.csv", PLG_EVENTS_HEADER, t);
+  open_log(m, &m->cycles, "dress_cycles.csv", PLG_CYCLES_HEADER, t);
   m->seg.next_number = next_pass_number(m);
   m->status.passes_shift = m->seg.next_number - 1;
-  snprintf(m->status.shift, sizeof m->status.shift, "%s", m->shift.label);
-  note(m, t, "shift", PLG_INFO, PLG_NOTE, 0, "shift %s", m->shift.label);
+  /* Once per folder: a daemon restarted within the shift adds no second
+   * note, and neither does a replay, which never reopens it. */
+  if (m->events.created)
+    note(m, t, "shift", PLG_INFO, PLG_NOTE, 0, "shift %s", m->shift.label);
 }
 
 /* The sample's shift folder, rotating at the change of shift. */
@@ -202,6 +267,62 @@ static void ensure_shift(MON_Monitor *m, double t)
   }
   open_shift(m, t);
 }
+
+/* ---- condition state on disk ------------------------------------------ */
+
+static void save_state(MON_Monitor *m)
+{
+  if (!m->opt.record || !m->state_path[0])
+    return;
+  char tmp[sizeof m->state_path + 8];
+  snprintf(tmp, sizeof tmp, "%s.new", m->state_path);
+  int fd = open(tmp, O_WRONLY | O_CREAT | O_TRUNC | O_CLOEXEC, 0644);
+  if (fd < 0)
+    return;
+  int ok = write(fd, STATE_MAGIC, sizeof STATE_MAGIC - 1) == (ssize_t)(sizeof STATE_MAGIC - 1) &&
+           write(fd, &m->cnd, sizeof m->cnd) == (ssize_t)sizeof m->cnd;
+  close(fd);
+  if (!ok || rename(tmp, m->state_path) != 0)
+    unlink(tmp);
+}
+
+/* Restores the state saved under the very same settings; anything else
+ * starts the model afresh. */
+static int load_state(MON_Monitor *m)
+{
+  int fd = open(m->state_path, O_RDONLY | O_CLOEXEC);
+  if (fd < 0)
+    return 0;
+  char magic[sizeof STATE_MAGIC - 1];
+  static CND_State st;
+  int ok = read(fd, magic, sizeof magic) == (ssize_t)sizeof magic &&
+           memcmp(magic, STATE_MAGIC, sizeof magic) == 0 && read(fd, &st, sizeof st) == (ssize_t)sizeof st;
+  char extra;
+  ok = ok && read(fd, &extra, 1) == 0;
+  close(fd);
+  if (!ok || memcmp(&st.set, &m->cnd.set, sizeof st.set) != 0)
+    return 0;
+  m->cnd = st;
+  return 1;
+}
+
+static int init_conditions(MON_Monitor *m, char *err, size_t errlen)
+{
+  memset(&m->cnd_set, 0, sizeof m->cnd_set);
+  CNF_CondSettings(&m->cfg, &m->cnd_set);
+  memset(&m->cnd, 0, sizeof m->cnd);
+  if (CND_Init(&m->cnd, &m->cnd_set, err, errlen) != 0)
+    return -1;
+  CND_Summary(&m->cnd, m->status.conditions, sizeof m->status.conditions);
+  return 0;
+}
+
+/* ---- per sample ---------------------------------------------------------- */
+
+static const char *const field_names[SMP_CHANNELS] = {
+    "spindle_power", "spindle_speed", "work_speed", "infeed_position",
+    "depth_of_cut", "wheel_diameter", "dress_count", "grinding",
+};
 
 static void stale_init(MON_Monitor *m)
 {
@@ -218,12 +339,8 @@ static void stale_init(MON_Monitor *m)
     limit[i] = own > 0.0 ? own : (i == 0 && own == 0.0 ? m->cfg.modbus.stale_s : 0.0);
   }
   STL_Init(&m->stale, SMP_CHANNELS, limit);
+  m->stale_active = 0;
 }
-
-static const char *const field_names[SMP_CHANNELS] = {
-    "spindle_power", "spindle_speed", "work_speed", "infeed_position",
-    "depth_of_cut", "wheel_diameter", "dress_count", "grinding",
-};
 
 static void check_stale(MON_Monitor *m, const SMP_Sample *s)
 {
@@ -239,39 +356,46 @@ static void check_stale(MON_Monitor *m, const SMP_Sample *s)
   }
   STL_Update(&m->stale, mask, raw, s->time);
   unsigned now = STL_Stale(&m->stale, s->time);
-  if (now == m->stale_active)
+  if ((now != 0) == (m->stale_active != 0)) {
+    m->stale_active = now;
     return;
-  char names[200] = "";
-  for (int i = 0; i < SMP_CHANNELS; i++)
-    if (now & (1u << i)) {
-      size_t u = strlen(names);
-      snprintf(names + u, sizeof names - u, "%s%s", u ? ", " : "", field_names[i]);
-    }
-  if (now && !m->stale_active)
-    note(m, s->time, "stale_data", PLG_WARNING, PLG_RAISED, 0, "values frozen: %s; check the controller or gateway",
-         names);
-  else if (!now)
-    note(m, s->time, "stale_data", PLG_WARNING, PLG_CLEARED, 0, "values moving again");
-  else
-    note(m, s->time, "stale_data", PLG_WARNING, PLG_RAISED, 0, "values frozen: %s", names);
+  }
+  char detail[200] = "values moving again";
+  if (now) {
+    size_t u = (size_t)snprintf(detail, sizeof detail, "values frozen: ");
+    for (int i = 0; i < SMP_CHANNELS; i++)
+      if (now & (1u << i))
+        u += (size_t)snprintf(detail + u, sizeof detail - u, "%s%s", (now & ((1u << i) - 1)) ? ", " : "",
+                              field_names[i]);
+  }
   m->stale_active = now;
+  CND_Event e;
+  if (CND_SetExternal(&m->cnd, CND_STALE_DATA, now != 0, s->time, detail, &e) == 1)
+    emit_cnd(m, &e, 1);
 }
 
 static void check_comm(MON_Monitor *m, const SMP_Sample *s, int failed)
 {
+  char detail[160];
+  CND_Event e;
   if (failed) {
     if (m->fail_run++ == 0)
       m->fail_since = s->time;
-    if (!m->comm_lost && s->time - m->fail_since >= COMM_LOST_AFTER_S) {
+    if (!m->comm_lost && s->time - m->fail_since >= m->cfg.comm_lost_after_s) {
       m->comm_lost = 1;
-      note(m, s->time, "communication_lost", PLG_WARNING, PLG_RAISED, 0,
-           "no values from the controller since %.3f (%lu polls)", m->fail_since, m->fail_run);
+      snprintf(detail, sizeof detail, "no values from the controller since %.3f (%lu polls)", m->fail_since,
+               m->fail_run);
+      if (CND_SetExternal(&m->cnd, CND_COMM_LOST, 1, s->time, detail, &e) == 1)
+        emit_cnd(m, &e, 1);
     }
     return;
   }
-  if (m->comm_lost)
-    note(m, s->time, "communication_lost", PLG_WARNING, PLG_CLEARED, 0,
-         "values from the controller again after %.1f s (%lu polls lost)", s->time - m->fail_since, m->fail_run);
+  if (m->comm_lost) {
+    snprintf(detail, sizeof detail, "values again after %.1f s (%lu polls lost)", s->time - m->fail_since,
+             m->fail_run);
+    if (CND_SetExternal(&m->cnd, CND_COMM_LOST, 0, s->time, detail, &e) == 1)
+      emit_cnd(m, &e, 1);
+  }
   m->comm_lost = 0;
   m->fail_run = 0;
   m->fail_since = NAN;
@@ -279,31 +403,24 @@ static void check_comm(MON_Monitor *m, const SMP_Sample *s, int failed)
 
 static void take_pass(MON_Monitor *m, SEG_Pass *p)
 {
-  PLG_PassExtra x;
-  PLG_InitExtra(&x);
-  if (!isnan(p->dress_count)) {
-    if (m->have_dress && p->dress_count != m->dress_count) {
-      m->cycle++;
-      m->passes_since_dress = 0;
-      m->volume_since_dress = 0.0;
-      note(m, p->start_time, "dress", PLG_INFO, PLG_NOTE, p->number, "dress counter %.0f -> %.0f",
-           m->dress_count, p->dress_count);
-    }
-    m->have_dress = 1;
-    m->dress_count = p->dress_count;
-  }
-  m->passes_since_dress++;
-  if (isfinite(p->volume_mm3))
-    m->volume_since_dress += p->volume_mm3 / m->cfg.job->seg.width_mm;
-  x.dress_cycle = m->cycle;
-  x.passes_since_dress = m->passes_since_dress;
-  x.volume_since_dress_mm3_mm = m->volume_since_dress;
-  write_line(m, &m->passes, m->line, PLG_FormatPass(p, &x, m->line, sizeof m->line));
+  CND_PassResult res;
+  unsigned n = CND_Pass(&m->cnd, p, &res, m->ev, MAX_EVENTS);
+  write_line(m, &m->passes, m->line, PLG_FormatPass(p, &res.info, m->line, sizeof m->line), p->end_time);
+  if (res.cycle_closed)
+    write_line(m, &m->cycles, m->line, PLG_FormatCycle(&res.closed, m->line, sizeof m->line), p->end_time);
   m->status.last_pass = *p;
-  m->status.last_extra = x;
+  m->status.last_info = res.info;
   m->status.passes_shift++;
+  m->status.cycle = res.info.cycle;
+  m->status.passes_in_cycle = res.info.pass_in_cycle;
+  m->status.volume_in_cycle = res.info.v_prime_mm3_mm;
+  m->status.forecast_passes_left = res.info.forecast_passes_left;
+  m->status.forecast_volume_left = res.info.forecast_v_prime_left;
   if (m->sink.pass)
-    m->sink.pass(m->sink.ctx, p, &x);
+    m->sink.pass(m->sink.ctx, p, &res.info);
+  emit_cnd(m, m->ev, n);
+  if (!n)
+    save_state(m);
 }
 
 static void setup_seg(MON_Monitor *m)
@@ -314,6 +431,14 @@ static void setup_seg(MON_Monitor *m)
   SEG_Init(&m->seg, &sc, next);
 }
 
+static void adopt_config(MON_Monitor *m, const CNF_Config *cfg)
+{
+  m->cfg = *cfg;
+  /* The copy's pointers must point into the copy. */
+  m->cfg.job = &m->cfg.jobs[cfg->job - cfg->jobs];
+  m->cfg.wheel = &m->cfg.wheels[cfg->wheel - cfg->wheels];
+}
+
 MON_Monitor *MON_Create(const CNF_Config *cfg, const MON_Options *opt, const MON_Sink *sink, char *err,
                         size_t errlen)
 {
@@ -322,20 +447,30 @@ MON_Monitor *MON_Create(const CNF_Config *cfg, const MON_Options *opt, const MON
     snprintf(err, errlen, "out of memory");
     return NULL;
   }
-  m->cfg = *cfg;
-  /* The copy's pointers must point into the copy. */
-  m->cfg.job = &m->cfg.jobs[cfg->job - cfg->jobs];
-  m->cfg.wheel = &m->cfg.wheels[cfg->wheel - cfg->wheels];
+  adopt_config(m, cfg);
   m->opt = *opt;
   snprintf(m->data_dir, sizeof m->data_dir, "%s", opt->data_dir ? opt->data_dir : cfg->data_dir);
   if (sink)
     m->sink = *sink;
   setup_seg(m);
   stale_init(m);
+  if (init_conditions(m, err, errlen) != 0) {
+    free(m);
+    return NULL;
+  }
+  if (m->opt.record) {
+    char dir[CNF_PATH + 64];
+    snprintf(dir, sizeof dir, "%s/%s", m->data_dir, m->cfg.machine);
+    snprintf(m->state_path, sizeof m->state_path, "%s/condition.state", dir);
+    mkdirs(dir);
+    m->restored = load_state(m);
+    CND_Summary(&m->cnd, m->status.conditions, sizeof m->status.conditions);
+  }
   m->fail_since = NAN;
   m->last_time = NAN;
-  m->cycle = 1;
   m->status.last_sample_time = NAN;
+  m->status.forecast_passes_left = m->status.forecast_volume_left = NAN;
+  m->status.volume_in_cycle = NAN;
   LGF_Init(&m->samples);
   LGF_Init(&m->passes);
   LGF_Init(&m->events);
@@ -345,14 +480,24 @@ MON_Monitor *MON_Create(const CNF_Config *cfg, const MON_Options *opt, const MON
 
 void MON_Reconfigure(MON_Monitor *m, const CNF_Config *cfg)
 {
-  m->cfg = *cfg;
-  m->cfg.job = &m->cfg.jobs[cfg->job - cfg->jobs];
-  m->cfg.wheel = &m->cfg.wheels[cfg->wheel - cfg->wheels];
-  /* The open pass keeps its settings; new ones apply from the next sample on. */
+  adopt_config(m, cfg);
+  /* The open pass keeps its figures; the new settings apply from the next sample. */
   SEG_Config sc;
   CNF_SegConfig(&m->cfg, &sc);
   m->seg.cfg = sc;
   stale_init(m);
+  CND_Settings ns;
+  memset(&ns, 0, sizeof ns);
+  CNF_CondSettings(&m->cfg, &ns);
+  if (memcmp(&ns, &m->cnd_set, sizeof ns) != 0) {
+    char err[256];
+    /* A new wheel, job or limit: the model starts a fresh reference. */
+    CND_State keep = m->cnd;
+    if (init_conditions(m, err, sizeof err) != 0)
+      m->cnd = keep;
+    else
+      save_state(m);
+  }
 }
 
 int MON_Feed(MON_Monitor *m, const SMP_Sample *in)
@@ -368,7 +513,13 @@ int MON_Feed(MON_Monitor *m, const SMP_Sample *in)
     if (n > 0) {
       int col;
       REC_ParseSample(m->line, (size_t)n - 1, &s, &col);
-      if (write_line(m, &m->samples, m->line, n) != 0)
+      if (m->log_failed && LGF_IsOpen(&m->samples)) {
+        char keep[REC_LINE_MAX];
+        memcpy(keep, m->line, (size_t)n);
+        logging_back(m, s.time); /* writes the gap mark first, if the disk takes it */
+        memcpy(m->line, keep, (size_t)n);
+      }
+      if (write_line(m, &m->samples, m->line, n, s.time) != 0)
         rc = -1;
     }
   }
@@ -378,8 +529,12 @@ int MON_Feed(MON_Monitor *m, const SMP_Sample *in)
     m->status.failed_polls++;
   m->last_time = s.time;
   m->status.last_sample_time = s.time;
+  m->status.last_sample = s;
   check_comm(m, &s, failed);
   check_stale(m, &s);
+  CND_Event e;
+  if (!failed && CND_Sample(&m->cnd, s.time, s.spindle_speed_rpm, s.wheel_diameter_mm, &e) == 1)
+    emit_cnd(m, &e, 1);
   SEG_Pass p;
   if (SEG_Feed(&m->seg, &s, &p))
     take_pass(m, &p);
@@ -395,16 +550,29 @@ int MON_Mark(MON_Monitor *m, double time, const char *kind, const char *text)
   if (isnan(t))
     return -1;
   ensure_shift(m, t);
+  char full[400];
+  if (m->opt.record && strcmp(kind, "start") == 0) {
+    /* The replay must know whether the model went on or began afresh. */
+    snprintf(full, sizeof full, "%s%sstate=%s", text ? text : "", text && *text ? " " : "",
+             m->restored ? "restored" : "fresh");
+    text = full;
+  }
   if (m->opt.record) {
     long n = REC_FormatMark(t, kind, text, m->line, sizeof m->line);
-    write_line(m, &m->samples, m->line, n);
+    write_line(m, &m->samples, m->line, n, t);
   }
+  unsigned n = 0;
   if (strcmp(kind, "start") == 0) {
     /* A fresh daemon: the segmentation starts afresh, as it did live. */
     setup_seg(m);
+    stale_init(m);
     m->comm_lost = 0;
     m->fail_run = 0;
     m->fail_since = NAN;
+    if (!m->opt.record && text && strstr(text, "state=fresh")) {
+      char err[256];
+      init_conditions(m, err, sizeof err);
+    }
     note(m, t, "monitoring", PLG_INFO, PLG_NOTE, 0, "monitoring started%s%s", text && *text ? ": " : "",
          text ? text : "");
   } else if (strcmp(kind, "stop") == 0) {
@@ -413,14 +581,21 @@ int MON_Mark(MON_Monitor *m, double time, const char *kind, const char *text)
       take_pass(m, &p);
     note(m, t, "monitoring", PLG_INFO, PLG_NOTE, 0, "monitoring stopped%s%s", text && *text ? ": " : "",
          text ? text : "");
+    save_state(m);
   } else if (strcmp(kind, "config") == 0) {
     int refused = text && strncmp(text, "refused", 7) == 0;
     note(m, t, "config", refused ? PLG_WARNING : PLG_INFO, PLG_NOTE, 0, "configuration %s", text ? text : "");
   } else if (strcmp(kind, "dress") == 0) {
-    m->cycle++;
-    m->passes_since_dress = 0;
-    m->volume_since_dress = 0.0;
-    note(m, t, "dress", PLG_INFO, PLG_NOTE, 0, "dress marked%s%s", text && *text ? " by " : "", text ? text : "");
+    CYC_Record rec;
+    int closed = 0;
+    CYC_Trigger trig = text && strstr(text, "schedule") ? CYC_SCHEDULE : CYC_OPERATOR;
+    n = CND_Dress(&m->cnd, t, trig, &rec, &closed, m->ev, MAX_EVENTS);
+    if (closed)
+      write_line(m, &m->cycles, m->line, PLG_FormatCycle(&rec, m->line, sizeof m->line), t);
+    emit_cnd(m, m->ev, n);
+    save_state(m);
+  } else if (strcmp(kind, "gap") == 0) {
+    /* Written when logging resumed; the missing samples speak for themselves. */
   } else {
     return -1;
   }
@@ -431,9 +606,12 @@ void MON_Destroy(MON_Monitor *m)
 {
   if (!m)
     return;
+  save_state(m);
   close_files(m);
   free(m);
 }
 
 void MON_GetStatus(const MON_Monitor *m, MON_Status *out) { *out = m->status; }
 const char *MON_ShiftDir(const MON_Monitor *m) { return m->have_shift ? m->dir : ""; }
+const CND_State *MON_Conditions(const MON_Monitor *m) { return &m->cnd; }
+int MON_Restored(const MON_Monitor *m) { return m->restored; }

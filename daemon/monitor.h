@@ -5,6 +5,7 @@
 
 #include <stddef.h>
 
+#include "condition.h"
 #include "conf.h"
 #include "passlog.h"
 #include "sample.h"
@@ -15,7 +16,7 @@ typedef struct MON_Monitor MON_Monitor;
 /* What the caller hears about, besides the files (all optional). */
 typedef struct MON_Sink {
   void *ctx;
-  void (*pass)(void *ctx, const SEG_Pass *p, const PLG_PassExtra *x);
+  void (*pass)(void *ctx, const SEG_Pass *p, const CYC_PassInfo *x);
   void (*event)(void *ctx, const PLG_Event *e);
   /* A file could not be written (disk full...): message names the file. */
   void (*io_error)(void *ctx, const char *message);
@@ -23,10 +24,13 @@ typedef struct MON_Sink {
 
 typedef struct MON_Options {
   const char *data_dir;  /* root of the shift folders; NULL = the config's */
-  int record;            /* 1: write samples.csv (the daemon); 0: replay */
+  int record;            /* 1: write samples.csv and keep the condition state on
+                            disk (the daemon); 0: replay */
 } MON_Options;
 
-/* Allocates the pipeline once. Returns NULL with a message in err. */
+/* Allocates the pipeline once. In record mode the condition model's state
+ * is restored from <data_dir>/<machine>/condition.state when it was saved
+ * under the same settings, so a restarted daemon keeps its dress cycle. Returns NULL with a message in err. */
 MON_Monitor *MON_Create(const CNF_Config *cfg, const MON_Options *opt, const MON_Sink *sink, char *err,
                         size_t errlen);
 /* One sample, already timestamped (UNIX s). A sample whose channels are all
@@ -49,13 +53,26 @@ typedef struct MON_Status {
   unsigned long passes_shift;  /* passes in the current shift folder */
   char shift[40];              /* current shift label */
   SEG_Pass last_pass;          /* latest pass (number 0 = none yet) */
-  PLG_PassExtra last_extra;    /* its condition figures */
+  CYC_PassInfo last_info;      /* its condition figures */
+  char conditions[256];        /* active conditions, "ok" when none */
+  double forecast_passes_left; /* before the dulling limit, NAN when none */
+  double forecast_volume_left; /* mm^3/mm */
+  unsigned long cycle;         /* dress cycle */
+  unsigned long passes_in_cycle;
+  double volume_in_cycle;      /* mm^3/mm */
+  PLG_Event recent[8];         /* latest condition events, newest last */
+  int n_recent;
   unsigned long samples;       /* samples fed */
   unsigned long failed_polls;  /* samples without any value */
   double baseline_w;           /* current idle power estimate */
+  SMP_Sample last_sample;      /* latest sample as analysed */
 } MON_Status;
 
 void MON_GetStatus(const MON_Monitor *m, MON_Status *out);
+/* The condition model (read only), e.g. for the active-condition list. */
+const CND_State *MON_Conditions(const MON_Monitor *m);
+/* 1 when the condition state was restored at creation. */
+int MON_Restored(const MON_Monitor *m);
 /* Folder of the current shift ("" before the first sample). */
 const char *MON_ShiftDir(const MON_Monitor *m);
 

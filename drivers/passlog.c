@@ -12,23 +12,15 @@ const char PLG_PASSES_HEADER[] =
     "specific_removal_rate_mm2_s,removal_rate_mm3_s,aggressiveness,equivalent_chip_thickness_um,"
     "max_chip_thickness_um,idle_power_w,net_power_mean_w,net_power_peak_w,energy_j,volume_mm3,"
     "specific_energy_j_mm3,burn_threshold_j_mm3,burn_ratio,reference_specific_energy_j_mm3,dull_ratio,"
-    "dull_ratio_smoothed,volume_since_dress_mm3_mm,forecast_passes_left,forecast_volume_left_mm3_mm,"
-    "rubbing_intercept_w_mm,flags";
+    "dull_ratio_smoothed,cusum,volume_since_dress_mm3_mm,forecast_passes_left,forecast_volume_left_mm3_mm,"
+    "rubbing_intercept_w_mm,incremental_energy_j_mm3,radial_wear_um,g_ratio,flags";
 
 const char PLG_EVENTS_HEADER[] = "time,kind,severity,state,pass,value,limit,message";
 
 const char PLG_CYCLES_HEADER[] =
-    "cycle,start_time,end_time,passes,volume_mm3_mm,reference_specific_energy_j_mm3,final_dull_ratio,g_ratio,"
-    "trigger,forecast_volume_mm3_mm,limit_volume_mm3_mm,forecast_right";
-
-void PLG_InitExtra(PLG_PassExtra *x)
-{
-  x->dress_cycle = 0;
-  x->passes_since_dress = 0;
-  x->reference_u_j_mm3 = x->dull_ratio = x->dull_ratio_smoothed = NAN;
-  x->volume_since_dress_mm3_mm = x->forecast_passes_left = x->forecast_volume_left_mm3_mm = NAN;
-  x->rubbing_intercept_w_mm = NAN;
-}
+    "cycle,wheel,job,start_time,end_time,passes,volume_mm3_mm,volume_mm3,reference_specific_energy_j_mm3,"
+    "reference_exponent,final_dull_ratio,g_ratio,wheel_wear_um,started_by,ended_by,forecast_pass,"
+    "forecast_volume_mm3_mm,forecast_right,limit_pass,limit_volume_mm3_mm";
 
 typedef struct out {
   char *buf;
@@ -59,12 +51,23 @@ static void num(out *o, double v, int dec)
     put(o, ",");
 }
 
-long PLG_FormatPass(const SEG_Pass *p, const PLG_PassExtra *x, char *buf, size_t size)
+long PLG_FormatPass(const SEG_Pass *p, const CYC_PassInfo *x, char *buf, size_t size)
 {
   out o = {buf, size, 0, 0};
   char flags[160];
-  put(&o, "%lu,%.3f,%.3f,%.3f,%lu,%lu", p->number, p->start_time, p->end_time, p->duration_s, x->dress_cycle,
-      x->passes_since_dress);
+  CYC_PassInfo none;
+  if (!x) {
+    memset(&none, 0, sizeof none);
+    none.v_prime_mm3_mm = none.u_ref_j_mm3 = none.dull_ratio = none.smoothed_ratio = none.cusum = NAN;
+    none.forecast_passes_left = none.forecast_v_prime_left = none.power_intercept_w_mm = NAN;
+    none.power_slope_j_mm3 = none.radial_wear_um = none.g_ratio = NAN;
+    x = &none;
+  }
+  put(&o, "%lu,%.3f,%.3f,%.3f,", p->number, p->start_time, p->end_time, p->duration_s);
+  if (x->cycle)
+    put(&o, "%lu,%lu", x->cycle, x->pass_in_cycle);
+  else
+    put(&o, ",");
   num(&o, p->depth_mm, 6);
   num(&o, p->work_speed_mm_s * 60.0, 1);
   num(&o, p->wheel_speed_m_s, 3);
@@ -85,13 +88,17 @@ long PLG_FormatPass(const SEG_Pass *p, const PLG_PassExtra *x, char *buf, size_t
   num(&o, p->specific_energy_j_mm3, 4);
   num(&o, p->burn_threshold_j_mm3, 4);
   num(&o, p->burn_ratio, 4);
-  num(&o, x->reference_u_j_mm3, 4);
+  num(&o, x->u_ref_j_mm3, 4);
   num(&o, x->dull_ratio, 4);
-  num(&o, x->dull_ratio_smoothed, 4);
-  num(&o, x->volume_since_dress_mm3_mm, 3);
+  num(&o, x->smoothed_ratio, 4);
+  num(&o, x->cusum, 3);
+  num(&o, x->v_prime_mm3_mm, 3);
   num(&o, x->forecast_passes_left, 1);
-  num(&o, x->forecast_volume_left_mm3_mm, 3);
-  num(&o, x->rubbing_intercept_w_mm, 3);
+  num(&o, x->forecast_v_prime_left, 3);
+  num(&o, x->power_intercept_w_mm, 3);
+  num(&o, x->power_slope_j_mm3, 4);
+  num(&o, x->radial_wear_um, 4);
+  num(&o, x->g_ratio, 2);
   put(&o, ",%s\n", SEG_FormatFlags(p->flags, flags, sizeof flags));
   return o.bad ? -1 : (long)o.used;
 }
@@ -149,21 +156,29 @@ long PLG_FormatEvent(const PLG_Event *e, char *buf, size_t size)
   return o.bad ? -1 : (long)o.used;
 }
 
-long PLG_FormatCycle(const PLG_Cycle *c, char *buf, size_t size)
+long PLG_FormatCycle(const CYC_Record *c, char *buf, size_t size)
 {
   out o = {buf, size, 0, 0};
-  put(&o, "%lu,%.3f,%.3f,%lu", c->cycle, c->start_time, c->end_time, c->passes);
-  num(&o, c->volume_mm3_mm, 3);
-  num(&o, c->reference_u_j_mm3, 4);
-  num(&o, c->final_dull_ratio, 4);
+  char wheel[2 * CYC_NAME_MAX + 4], job[2 * CYC_NAME_MAX + 4];
+  if (PLG_CsvField(c->wheel, wheel, sizeof wheel) < 0 || PLG_CsvField(c->job, job, sizeof job) < 0)
+    return -1;
+  put(&o, "%lu,%s,%s,%.3f,%.3f,%lu", c->cycle, wheel, job, c->start_time, c->end_time, c->passes);
+  num(&o, c->v_prime_mm3_mm, 3);
+  num(&o, c->volume_mm3, 1);
+  num(&o, c->u_ref_j_mm3, 4);
+  num(&o, c->ref_exponent, 4);
+  num(&o, c->final_ratio, 4);
   num(&o, c->g_ratio, 2);
-  put(&o, ",%s", c->trigger);
-  num(&o, c->forecast_volume_mm3_mm, 3);
-  num(&o, c->limit_volume_mm3_mm, 3);
-  if (c->forecast_right < 0)
-    put(&o, ",\n");
-  else
-    put(&o, ",%s\n", c->forecast_right ? "yes" : "no");
+  num(&o, c->wear_um, 3);
+  put(&o, ",%s,%s,", CYC_TriggerName(c->started_by), CYC_TriggerName(c->ended_by));
+  if (c->forecast_made)
+    put(&o, "%lu", c->forecast_pass);
+  num(&o, c->forecast_made ? c->forecast_v_prime_mm3_mm : NAN, 3);
+  put(&o, ",%s,", c->forecast_right < 0 ? "" : c->forecast_right ? "yes" : "no");
+  if (c->pass_at_limit)
+    put(&o, "%lu", c->pass_at_limit);
+  num(&o, c->v_prime_at_limit, 3);
+  put(&o, "\n");
   return o.bad ? -1 : (long)o.used;
 }
 

@@ -27,7 +27,9 @@ void REC_FormatIso(double t, char *buf, size_t size)
 {
   double whole = floor(t);
   time_t secs = (time_t)whole;
-  int ms = (int)floor((t - whole) * 1000.0 + 1e-6);
+  /* A tolerance of 1 us, well above the rounding of a parsed time (under 0.5 us
+   * until 2106): REC_FormatIso(REC_ParseIso(text)) gives text back. */
+  int ms = (int)floor((t - whole) * 1000.0 + 1e-3);
   if (ms > 999)
     ms = 999;
   struct tm tm;
@@ -151,10 +153,11 @@ static int parse_number(const char *p, size_t len, double *out)
   if (i < len && (p[i] == '-' || p[i] == '+'))
     neg = p[i++] == '-';
   uint64_t m = 0;
-  int digits = 0, frac = 0, dot = 0;
+  int digits = 0, frac = 0, dot = 0, any = 0;
   for (; i < len; i++) {
     char ch = p[i];
     if (ch >= '0' && ch <= '9') {
+      any = 1;
       if (digits >= 19)
         goto slow;
       m = m * 10 + (uint64_t)(ch - '0');
@@ -170,7 +173,7 @@ static int parse_number(const char *p, size_t len, double *out)
       goto slow;
     }
   }
-  if (len == 0 || (len == 1 && (dot || neg)) || (neg && dot && len == 2))
+  if (!any) /* "", ".", "+", "-.": no digit, no number */
     return -1;
   if (m < (1ull << 53)) {
     double v = (double)m / pow10[frac];
@@ -241,6 +244,11 @@ static const char *next_line(REC_Reader *r, size_t *len, int *complete, int *err
   *error = 0;
   for (;;) {
     char *nl = memchr(r->buf + r->start, '\n', r->end - r->start);
+    if (nl && r->skip_rest) { /* the end of an over-long line already returned */
+      r->start = (size_t)(nl - r->buf) + 1;
+      r->skip_rest = 0;
+      continue;
+    }
     if (nl) {
       const char *line = r->buf + r->start;
       *len = (size_t)(nl - line);
@@ -250,6 +258,8 @@ static const char *next_line(REC_Reader *r, size_t *len, int *complete, int *err
       return line;
     }
     if (r->eof) {
+      if (r->skip_rest)
+        r->start = r->end;
       if (r->start == r->end)
         return NULL;
       const char *line = r->buf + r->start;
@@ -264,8 +274,14 @@ static const char *next_line(REC_Reader *r, size_t *len, int *complete, int *err
       r->end -= r->start;
       r->start = 0;
     }
+    if (r->end == REC_BUF && r->skip_rest) {
+      r->start = r->end;
+      continue;
+    }
     if (r->end == REC_BUF) {
-      /* A line longer than the buffer: take it as it is, the parser will refuse it. */
+      /* A line longer than the buffer: its first REC_BUF bytes stand for it (the
+       * parser refuses them), the rest is skipped, so later lines keep their numbers. */
+      r->skip_rest = 1;
       *len = r->end;
       *complete = 1;
       r->start = r->end;
@@ -318,6 +334,14 @@ static int split_meta(const char *line, size_t len, char *key, size_t klen, char
   return 0;
 }
 
+/* Copies text, cut to fit: metadata values are free text of any length. */
+static void copy_text(char *dst, size_t size, const char *src)
+{
+  size_t n = strnlen(src, size - 1);
+  memcpy(dst, src, n);
+  dst[n] = '\0';
+}
+
 static int meta_number(const char *v, double *out)
 {
   char *end;
@@ -331,11 +355,11 @@ static int meta_number(const char *v, double *out)
 static int apply_meta(REC_Meta *m, const char *key, const char *value)
 {
   if (strcmp(key, "format") == 0) {
-    snprintf(m->format, sizeof m->format, "%s", value);
+    copy_text(m->format, sizeof m->format, value);
     return strncmp(value, "gritline-samples/1", 18) == 0 && (value[18] == '\0' || value[18] == '.') ? 0 : -1;
   }
   if (strcmp(key, "machine") == 0)
-    snprintf(m->machine, sizeof m->machine, "%s", value);
+    copy_text(m->machine, sizeof m->machine, value);
   else if (strcmp(key, "geometry") == 0)
     return GRD_GeometryFromName(value, &m->geometry);
   else if (strcmp(key, "grinding_width_mm") == 0)
@@ -347,9 +371,9 @@ static int apply_meta(REC_Meta *m, const char *key, const char *value)
   else if (strcmp(key, "started") == 0)
     return REC_ParseIso(value, &m->started);
   else if (strcmp(key, "wheel") == 0)
-    snprintf(m->wheel, sizeof m->wheel, "%s", value);
+    copy_text(m->wheel, sizeof m->wheel, value);
   else if (strcmp(key, "job") == 0)
-    snprintf(m->job, sizeof m->job, "%s", value);
+    copy_text(m->job, sizeof m->job, value);
   /* Unknown keys are kept by the format's rule: ignored here. */
   return 0;
 }

@@ -36,8 +36,8 @@ long REC_FormatSample(const SMP_Sample *s, char *buf, size_t size);
  * to the 1-based column at fault (0 when the count of columns is wrong). */
 int REC_ParseSample(const char *line, size_t len, SMP_Sample *s, int *bad_column);
 /* Marks record the pipeline's inputs that are not samples, so that a replay
- * sees what the daemon saw: "# mark: <time> <kind> <text>". Kinds: restart,
- * dress, config. The text is one line. Returns the length or -1. */
+ * sees what the daemon saw: "# mark: <time> <kind> <text>". Kinds: start,
+ * stop, dress, config. The text is one line. Returns the length or -1. */
 long REC_FormatMark(double time, const char *kind, const char *text, char *buf, size_t size);
 /* Formats a UNIX time as ISO 8601 UTC with milliseconds. */
 void REC_FormatIso(double t, char *buf, size_t size);
@@ -71,6 +71,7 @@ typedef struct REC_Reader {
   char *buf;           /* REC_BUF bytes, allocated once by REC_Open */
   size_t start, end;   /* unread bytes buf[start..end) */
   int eof;             /* read() returned 0 */
+  int skip_rest;       /* an over-long line was returned: skip to its end */
 } REC_Reader;
 
 /* Opens a recording and reads its metadata and header. Returns 0, or -1 with
