@@ -242,8 +242,24 @@ static void log_connection(daemon_state *d, MBC_Status st)
   d->connected_logged = up;
 }
 
+#ifdef GRITLINE_FAULT_INJECTION
+/* Test builds only (gritlined-test): after GRITLINE_TEST_STALL_AFTER polls the
+ * loop hangs, as a read stuck forever would, so tests can see the watchdog
+ * keep-alives stop. */
+static void maybe_stall(const daemon_state *d)
+{
+  const char *after = getenv("GRITLINE_TEST_STALL_AFTER");
+  if (after && d->polls >= strtoul(after, NULL, 10))
+    for (;;)
+      pause();
+}
+#else
+static void maybe_stall(const daemon_state *d) { (void)d; }
+#endif
+
 static void poll_once(daemon_state *d)
 {
+  maybe_stall(d);
   SMP_Sample s;
   double clock_s = NAN;
   SMP_Clear(&s, NAN);
