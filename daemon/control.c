@@ -93,64 +93,97 @@ static int reply_line(CTL_Server *s, CTL_Client *c, const char *text)
 }
 
 /* Keeps what an error message echoes printable and short. */
-static void printable(const char *in, char *out, size_t size)
+static void printable(const char *in, size_t len, char *out, size_t size)
 {
   size_t u = 0;
-  for (; *in && u + 1 < size && u < 40; in++)
-    out[u++] = (*in >= 0x20 && *in < 0x7f) ? *in : '?';
+  for (size_t i = 0; i < len && u + 1 < size && u < 40; i++)
+    out[u++] = (in[i] >= 0x20 && in[i] < 0x7f) ? in[i] : '?';
   out[u] = '\0';
 }
 
-static int serve(CTL_Server *s, CTL_Client *c, char *line)
+void CTL_ParseRequest(const char *line, size_t len, CTL_Parsed *out)
+{
+  memset(out, 0, sizeof *out);
+  while (len && (line[len - 1] == '\r' || line[len - 1] == ' '))
+    len--;
+  if (memchr(line, '\0', len)) {
+    out->kind = CTL_BAD;
+    snprintf(out->error, sizeof out->error, "error request holds a NUL byte");
+    return;
+  }
+  const char *sp = memchr(line, ' ', len);
+  size_t word = sp ? (size_t)(sp - line) : len;
+  const char *arg = sp ? sp + 1 : NULL;
+  size_t arglen = sp ? len - word - 1 : 0;
+  char what[48];
+  if (!arg && word == 6 && memcmp(line, "status", 6) == 0) {
+    out->kind = CTL_STATUS;
+  } else if (!arg && word == 4 && memcmp(line, "ping", 4) == 0) {
+    out->kind = CTL_PING;
+  } else if (!arg && word == 4 && memcmp(line, "help", 4) == 0) {
+    out->kind = CTL_HELP;
+  } else if (word == 5 && memcmp(line, "dress", 5) == 0) {
+    out->kind = CTL_DRESS;
+    snprintf(out->trigger, sizeof out->trigger, "operator");
+    if (!arg)
+      return;
+    const char *sp2 = memchr(arg, ' ', arglen);
+    size_t tlen = sp2 ? (size_t)(sp2 - arg) : arglen;
+    if ((tlen == 8 && memcmp(arg, "operator", 8) == 0) || (tlen == 8 && memcmp(arg, "schedule", 8) == 0)) {
+      memcpy(out->trigger, arg, tlen);
+      out->trigger[tlen] = '\0';
+      if (sp2) {
+        size_t nlen = arglen - tlen - 1;
+        if (nlen >= sizeof out->note)
+          nlen = sizeof out->note - 1;
+        memcpy(out->note, sp2 + 1, nlen);
+        out->note[nlen] = '\0';
+        for (size_t i = 0; i < nlen; i++)
+          if ((unsigned char)out->note[i] < 0x20)
+            out->note[i] = ' ';
+      }
+    } else {
+      out->kind = CTL_BAD;
+      printable(arg, tlen, what, sizeof what);
+      snprintf(out->error, sizeof out->error, "error dress: unknown trigger \"%s\" (operator or schedule)", what);
+    }
+  } else {
+    out->kind = CTL_BAD;
+    printable(line, word, what, sizeof what);
+    snprintf(out->error, sizeof out->error, "error unknown request \"%s\" (try help)", what);
+  }
+}
+
+static int serve(CTL_Server *s, CTL_Client *c, const char *line, size_t len)
 {
   s->requests++;
-  size_t n = strlen(line);
-  while (n && (line[n - 1] == '\r' || line[n - 1] == ' '))
-    line[--n] = '\0';
-  char *arg = strchr(line, ' ');
-  if (arg)
-    *arg++ = '\0';
-  if (strcmp(line, "status") == 0 && !arg) {
-    long len = s->h.status ? s->h.status(s->h.ctx, s->reply, sizeof s->reply - 1) : -1;
-    if (len < 0)
+  CTL_Parsed r;
+  CTL_ParseRequest(line, len, &r);
+  switch (r.kind) {
+  case CTL_STATUS: {
+    long n = s->h.status ? s->h.status(s->h.ctx, s->reply, sizeof s->reply - 1) : -1;
+    if (n < 0)
       return reply_line(s, c, "error status unavailable");
-    s->reply[len++] = '\n';
-    return reply(c, s->reply, (size_t)len);
+    s->reply[n++] = '\n';
+    return reply(c, s->reply, (size_t)n);
   }
-  if (strcmp(line, "ping") == 0 && !arg)
+  case CTL_PING:
     return reply_line(s, c, "pong");
-  if (strcmp(line, "help") == 0 && !arg)
+  case CTL_HELP:
     return reply_line(s, c, help_text);
-  if (strcmp(line, "dress") == 0) {
-    const char *trigger = "operator", *note = "";
-    if (arg) {
-      char *rest = strchr(arg, ' ');
-      if (rest)
-        *rest++ = '\0';
-      if (strcmp(arg, "operator") == 0 || strcmp(arg, "schedule") == 0) {
-        trigger = arg;
-        note = rest ? rest : "";
-      } else {
-        char what[48];
-        printable(arg, what, sizeof what);
-        char msg[160];
-        snprintf(msg, sizeof msg, "error dress: unknown trigger \"%s\" (operator or schedule)", what);
-        return reply_line(s, c, msg);
-      }
-    }
+  case CTL_DRESS: {
     char why[200];
-    if (!s->h.dress || s->h.dress(s->h.ctx, trigger, note, why, sizeof why) != 0) {
+    if (!s->h.dress || s->h.dress(s->h.ctx, r.trigger, r.note, why, sizeof why) != 0) {
       char msg[256];
       snprintf(msg, sizeof msg, "error dress: %s", s->h.dress ? why : "not available here");
       return reply_line(s, c, msg);
     }
     return reply_line(s, c, "ok dress marked");
   }
-  s->refused++;
-  char what[48], msg[128];
-  printable(line, what, sizeof what);
-  snprintf(msg, sizeof msg, "error unknown request \"%s\" (try help)", what);
-  return reply_line(s, c, msg);
+  default:
+    s->refused++;
+    return reply_line(s, c, r.error);
+  }
 }
 
 static void accept_clients(CTL_Server *s, double now)
@@ -192,13 +225,8 @@ static void read_client(CTL_Server *s, CTL_Client *c, double now)
     c->len += (size_t)n;
     char *nl;
     while (c->fd >= 0 && (nl = memchr(c->buf, '\n', c->len))) {
-      *nl = '\0';
       size_t used = (size_t)(nl - c->buf) + 1;
-      if (memchr(c->buf, '\0', used - 1)) {
-        s->refused++;
-        if (reply_line(s, c, "error request holds a NUL byte") != 0)
-          drop(c);
-      } else if (serve(s, c, c->buf) != 0) {
+      if (serve(s, c, c->buf, used - 1) != 0) {
         drop(c);
         return;
       }

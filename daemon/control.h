@@ -11,6 +11,17 @@
 #define CTL_REPLY_MAX 65536
 #define CTL_IDLE_S 60.0       /* a client silent this long is closed */
 
+/* One request, parsed (pure: no I/O), so that it can be tested and fuzzed alone. */
+typedef enum CTL_Kind { CTL_STATUS, CTL_PING, CTL_HELP, CTL_DRESS, CTL_BAD } CTL_Kind;
+typedef struct CTL_Parsed {
+  CTL_Kind kind;
+  char trigger[16];     /* CTL_DRESS: "operator" or "schedule" */
+  char note[200];       /* CTL_DRESS: free text, may be empty */
+  char error[160];      /* CTL_BAD: the reply to send */
+} CTL_Parsed;
+/* Parses one request line (without its newline, len bytes, may hold any bytes). */
+void CTL_ParseRequest(const char *line, size_t len, CTL_Parsed *out);
+
 typedef struct CTL_Handler {
   void *ctx;
   /* Writes the status JSON (no newline); returns its length or -1. */

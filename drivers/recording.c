@@ -87,12 +87,12 @@ long REC_FormatHead(const REC_Meta *m, char *buf, size_t size)
   size_t u = 0;
   char iso[40];
   REC_FormatIso(m->started, iso, sizeof iso);
-  int bad = append(buf, size, &u, "# format: %s\n# machine: %s\n# geometry: %s\n# grinding_width_mm: %.6g\n",
+  int bad = append(buf, size, &u, "# format: %s\n# machine: %s\n# geometry: %s\n# grinding_width_mm: %.10g\n",
                    REC_FORMAT, m->machine, GRD_GeometryName(m->geometry), m->grinding_width_mm);
   if (!isnan(m->workpiece_diameter_mm))
-    bad |= append(buf, size, &u, "# workpiece_diameter_mm: %.6g\n", m->workpiece_diameter_mm);
+    bad |= append(buf, size, &u, "# workpiece_diameter_mm: %.10g\n", m->workpiece_diameter_mm);
   if (!isnan(m->wheel_diameter_mm))
-    bad |= append(buf, size, &u, "# wheel_diameter_mm: %.6g\n", m->wheel_diameter_mm);
+    bad |= append(buf, size, &u, "# wheel_diameter_mm: %.10g\n", m->wheel_diameter_mm);
   bad |= append(buf, size, &u, "# started: %s\n", iso);
   if (m->wheel[0])
     bad |= append(buf, size, &u, "# wheel: %s\n", m->wheel);
