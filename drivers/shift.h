@@ -2,7 +2,7 @@
 #ifndef GRITLINE_SHIFT_H
 #define GRITLINE_SHIFT_H
 
-#define SFT_MAX 8
+#define SFT_MAX 32 /* shifts a day; short ones serve soak tests */
 #define SFT_NAME 24
 
 typedef struct SFT_Schedule {

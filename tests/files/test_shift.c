@@ -161,7 +161,10 @@ Test(shift, parse_errors)
   expect_refused("06:00,14:00,", NULL, "not a time");
   expect_refused("14:00,06:00", NULL, "ascending");
   expect_refused("06:00,06:00", NULL, "ascending");
-  expect_refused("00:00,01:00,02:00,03:00,04:00,05:00,06:00,07:00,08:00", NULL, "at most 8 shifts");
+  char many[400] = "";
+  for (int i = 0; i <= SFT_MAX; i++) /* one more than allowed */
+    snprintf(many + strlen(many), sizeof many - strlen(many), "%s%02d:%02d", i ? "," : "", i / 60, i % 60);
+  expect_refused(many, NULL, "at most 32 shifts");
   expect_refused("06:00,14:00,22:00", "early,late", "2 shift names for 3 shift starts");
   expect_refused("06:00,14:00", "a,b,c", "3 shift names for 2 shift starts");
   expect_refused("06:00,14:00", "early,late night", "only letters, digits and '-'");
