@@ -5,6 +5,7 @@
 
 #include "calc.h"
 #include "replay.h"
+#include "report.h"
 #include "status_cmd.h"
 
 static const char usage_text[] =
@@ -16,6 +17,7 @@ static const char usage_text[] =
     "  replay    feed recordings through the daemon's analysis again (diagnosis, what-if)\n"
     "  status    what the running daemon sees now (add --watch to follow it)\n"
     "  dress     tell the running daemon the wheel has just been dressed\n"
+    "  report    shift report from the logs: HTML with charts, text or JSON\n"
     "\n"
     "gritline COMMAND --help describes each command.\n"
     "Caution: never exceed the wheel's marked maximum operating speed; gritline's figures\n"
@@ -32,6 +34,7 @@ static const struct command commands[] = {
     {"replay", RPL_Main},
     {"status", STC_StatusMain},
     {"dress", STC_DressMain},
+    {"report", RPT_Main},
 };
 
 int main(int argc, char **argv)

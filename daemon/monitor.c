@@ -15,6 +15,7 @@
 #include "recording.h"
 #include "shift.h"
 #include "stale.h"
+#include "summary.h"
 
 #define MAX_EVENTS 32
 #define STATE_MAGIC "gritline condition state 1\n"
@@ -181,6 +182,15 @@ static void close_files(MON_Monitor *m)
   m->have_shift = 0;
 }
 
+/* The headline figures of the folder, so that reports over weeks stay fast. */
+static void write_summary(MON_Monitor *m)
+{
+  char err[300];
+  SUM_Window w = {m->cfg.wheel->aggr_low, m->cfg.wheel->aggr_high};
+  if (m->have_shift && SUM_WriteFolder(m->dir, &w, err, sizeof err) != 0 && m->sink.io_error)
+    m->sink.io_error(m->sink.ctx, err);
+}
+
 static int open_log(MON_Monitor *m, LGF_File *f, const char *name, const char *header, double t)
 {
   char path[sizeof m->dir + 32];
@@ -264,6 +274,9 @@ static void ensure_shift(MON_Monitor *m, double t)
     note(m, m->shift.end < t ? m->shift.end : t, "shift", PLG_INFO, PLG_NOTE, 0, "end of shift %s",
          m->shift.label);
     close_files(m);
+    m->have_shift = 1; /* the folder is still known */
+    write_summary(m);
+    m->have_shift = 0;
   }
   open_shift(m, t);
 }
@@ -582,6 +595,7 @@ int MON_Mark(MON_Monitor *m, double time, const char *kind, const char *text)
     note(m, t, "monitoring", PLG_INFO, PLG_NOTE, 0, "monitoring stopped%s%s", text && *text ? ": " : "",
          text ? text : "");
     save_state(m);
+    write_summary(m);
   } else if (strcmp(kind, "config") == 0) {
     int refused = text && strncmp(text, "refused", 7) == 0;
     note(m, t, "config", refused ? PLG_WARNING : PLG_INFO, PLG_NOTE, 0, "configuration %s", text ? text : "");
