@@ -25,6 +25,10 @@ void REC_InitMeta(REC_Meta *m)
 
 void REC_FormatIso(double t, char *buf, size_t size)
 {
+  /* A controller clock gone wild (NaN, or past year 9999) must neither overflow
+   * time_t nor write a time that REC_ParseIso refuses: the epoch stands for it. */
+  if (!(t >= 0.0 && t < 253402300800.0))
+    t = 0.0;
   double whole = floor(t);
   time_t secs = (time_t)whole;
   /* A tolerance of 1 us, well above the rounding of a parsed time (under 0.5 us

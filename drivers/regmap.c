@@ -385,6 +385,11 @@ void RMP_Decode(const RMP_Map *m, const RMP_Plan *p, const RMP_BlockData *data, 
       d = fallback_wheel_diameter_mm;
     /* vs = pi * ds * n / 60000 solved for n (analysis/units.h); no diameter -> no speed. */
     out->spindle_speed_rpm = d > 0.0 ? UNT_SpindleSpeedFor(d, v->value[RMP_WHEEL_SPEED]) : NAN;
+    if (isinf(out->spindle_speed_rpm)) { /* a huge speed or a tiny diameter: rejected like a bad read */
+      out->spindle_speed_rpm = NAN;
+      v->value[RMP_WHEEL_SPEED] = NAN;
+      v->rejected_mask |= 1u << RMP_WHEEL_SPEED;
+    }
   }
   out->work_speed_mm_min = v->value[RMP_WORK_SPEED];
   out->infeed_position_mm = v->value[RMP_INFEED_POSITION];
