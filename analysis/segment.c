@@ -483,10 +483,12 @@ int SEG_Feed(SEG_State *s, const SMP_Sample *x, SEG_Pass *out)
     double net = s->have_baseline ? x->spindle_power_w - baseline_at(s, x->time) : 0.0;
     int contact = flagged ? x->grinding > 0.5
                           : (s->have_baseline && x->time >= s->settle_until && net > on_threshold(s));
+    /* Flagged contact before any idle sample (the stream began mid-pass) is
+     * skipped: that power is no idle baseline, and the pass cannot be measured. */
     if (contact && s->have_baseline) {
       start_pass(s, x, net, !s->have_last);
       add_contact(s, x, net);
-    } else {
+    } else if (!contact) {
       track_baseline(s, x);
     }
   } else {
