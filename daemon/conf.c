@@ -1,6 +1,7 @@
 /* conf.c: the configuration file of gritlined: INI read with inih, every key typed and bounded. */
 #include "conf.h"
 
+#include <arpa/inet.h>
 #include <ctype.h>
 #include <errno.h>
 #include <ini.h>
@@ -31,7 +32,8 @@ typedef struct key_desc {
 } key_desc;
 
 typedef enum section_kind {
-  S_MACHINE, S_MODBUS, S_CHANNEL, S_JOB, S_WHEEL, S_SHIFTS, S_SEGMENTATION, S_CONDITION, S_ALERTS, S_WRITEBACK
+  S_MACHINE, S_MODBUS, S_CHANNEL, S_JOB, S_WHEEL, S_SHIFTS, S_SEGMENTATION, S_CONDITION, S_ALERTS, S_WRITEBACK,
+  S_METRICS, S_MQTT
 } section_kind;
 
 typedef struct section_desc {
@@ -317,6 +319,84 @@ static const key_desc writeback_keys[] = {
     {"logging_failed", K_SPECIAL, OFF(CNF_Config, writeback[CND_LOGGING_FAILED]), 0, 0, 0, 0, 1, set_writeback, print_writeback, ""},
 };
 
+/* [metrics] and [mqtt] ---------------------------------------------------- */
+
+/* A numeric address: the server binds exactly what is written, never a name. */
+static int set_listen(void *t, const char *v, char *err, size_t n)
+{
+  unsigned char a[16];
+  if (strlen(v) < sizeof(((MET_Config *)0)->listen) &&
+      (inet_pton(AF_INET, v, a) == 1 || inet_pton(AF_INET6, v, a) == 1)) {
+    snprintf((char *)t, sizeof(((MET_Config *)0)->listen), "%s", v);
+    return 0;
+  }
+  snprintf(err, n, "not a numeric IPv4 or IPv6 address: \"%s\" (127.0.0.1 keeps it on this host)", v);
+  return -1;
+}
+static void print_text(const void *t, char *b, size_t n) { snprintf(b, n, "%s", (const char *)t); }
+
+static int set_yesno(void *t, const char *v, char *err, size_t n)
+{
+  if (strcmp(v, "yes") == 0 || strcmp(v, "no") == 0) {
+    *(int *)t = strcmp(v, "yes") == 0;
+    return 0;
+  }
+  snprintf(err, n, "expected yes or no, not \"%s\"", v);
+  return -1;
+}
+static void print_yesno(const void *t, char *b, size_t n) { snprintf(b, n, "%s", *(const int *)t ? "yes" : "no"); }
+
+/* Topic levels of letters, digits, '_', '-' and '.', separated by single '/':
+ * no wildcard ('+', '#'), no '$' (the broker's own topics), no empty level. */
+static int set_topic_prefix(void *t, const char *v, char *err, size_t n)
+{
+  size_t len = strlen(v);
+  int ok = len > 0 && len < MQT_PREFIX_MAX && v[0] != '/' && v[len - 1] != '/' && !strstr(v, "//");
+  for (size_t i = 0; ok && i < len; i++)
+    ok = isalnum((unsigned char)v[i]) || strchr("_-./", v[i]);
+  if (!ok) {
+    snprintf(err, n, "\"%s\": 1 to %d letters, digits, '_', '-', '.' in levels separated by single '/'", v,
+             MQT_PREFIX_MAX - 1);
+    return -1;
+  }
+  snprintf((char *)t, MQT_PREFIX_MAX, "%s", v);
+  return 0;
+}
+static int set_client_id(void *t, const char *v, char *err, size_t n)
+{
+  size_t len = strlen(v);
+  int ok = len > 0 && len < MQT_CLIENT_ID_MAX;
+  for (size_t i = 0; ok && i < len; i++)
+    ok = isalnum((unsigned char)v[i]) || strchr("_-.", v[i]);
+  if (!ok) {
+    snprintf(err, n, "\"%s\": 1 to %d letters, digits, '_', '-' or '.'", v, MQT_CLIENT_ID_MAX - 1);
+    return -1;
+  }
+  snprintf((char *)t, MQT_CLIENT_ID_MAX, "%s", v);
+  return 0;
+}
+
+static const key_desc metrics_keys[] = {
+    SPECIAL("listen", CNF_Config, metrics.listen, set_listen, print_text),
+    UINT("port", CNF_Config, metrics.port, 0, 65535, ""),
+};
+
+static const key_desc mqtt_keys[] = {
+    SPECIAL("enabled", CNF_Config, mqtt.enabled, set_yesno, print_yesno),
+    STR("host", CNF_Config, mqtt.host, K_STRING),
+    UINT("port", CNF_Config, mqtt.port, 1, 65535, ""),
+    SPECIAL("client_id", CNF_Config, mqtt.client_id, set_client_id, print_text),
+    SPECIAL("topic_prefix", CNF_Config, mqtt.topic_prefix, set_topic_prefix, print_text),
+    STR("username", CNF_Config, mqtt.username, K_STRING),
+    STR("password_file", CNF_Config, mqtt.password_file, K_PATH),
+    UINT("keepalive_s", CNF_Config, mqtt.keepalive_s, 5, 3600, "s"),
+    UINT("qos_passes", CNF_Config, mqtt.qos_passes, 0, 2, ""),
+    UINT("queue_passes", CNF_Config, mqtt.queue_passes, 1, 100000, "messages"),
+    UINT("queue_alerts", CNF_Config, mqtt.queue_alerts, 1, 10000, "messages"),
+    UINT("reconnect_min_s", CNF_Config, mqtt.reconnect_min_s, 1, 3600, "s"),
+    UINT("reconnect_max_s", CNF_Config, mqtt.reconnect_max_s, 1, 3600, "s"),
+};
+
 /* [shifts] keys hold text until the end, then SFT_Parse checks them together. */
 typedef struct shift_text {
   char starts[128];
@@ -355,6 +435,8 @@ static const section_desc sections[] = {
     {"condition", S_CONDITION, 0, condition_keys, N(condition_keys)},
     {"alerts", S_ALERTS, 0, alert_keys, N(alert_keys)},
     {"writeback", S_WRITEBACK, 0, writeback_keys, N(writeback_keys)},
+    {"metrics", S_METRICS, 0, metrics_keys, N(metrics_keys)},
+    {"mqtt", S_MQTT, 0, mqtt_keys, N(mqtt_keys)},
 };
 
 /* ---- parsing state ---------------------------------------------------- */
@@ -376,6 +458,7 @@ typedef struct parse_state {
   int sec_line;
   unsigned char seen[64]; /* keys seen in the current section (bit per key index) */
   int machine_line, modbus_line, shifts_line, segmentation_line, condition_line, alerts_line, writeback_line;
+  int metrics_line, mqtt_line;
   int channel_line[RMP_CHANNEL_COUNT];
   int range_min_set, range_max_set;
   int replay;             /* checks for a replay: no Modbus, no marked speed needed */
@@ -478,6 +561,15 @@ static void config_init(CNF_Config *c)
   CND_DefaultSettings(&c->cond);
   c->comm_lost_after_s = 2.0;
   c->hook_timeout_s = 10.0;
+  snprintf(c->metrics.listen, sizeof c->metrics.listen, "127.0.0.1");
+  c->metrics.port = MET_DEFAULT_PORT;
+  snprintf(c->mqtt.host, sizeof c->mqtt.host, "127.0.0.1");
+  c->mqtt.port = 1883; /* the port registered for MQTT (from memory) */
+  c->mqtt.keepalive_s = 30;
+  c->mqtt.queue_passes = 1000;
+  c->mqtt.queue_alerts = 200;
+  c->mqtt.reconnect_min_s = 1;
+  c->mqtt.reconnect_max_s = 30;
   char err[128];
   SFT_Parse(&c->shifts, "06:00,14:00,22:00", "early,late,night", err, sizeof err);
 }
@@ -502,7 +594,7 @@ static int open_section(parse_state *p, const char *section)
   if (!p->sec)
     return fail(p, at,
                 "unknown section [%s] (expected machine, modbus, channel.NAME, job.NAME, wheel.NAME, shifts, "
-                "segmentation, condition, alerts, writeback)",
+                "segmentation, condition, alerts, writeback, metrics, mqtt)",
                 section);
   snprintf(p->section, sizeof p->section, "%s", section);
   p->sec_line = at;
@@ -516,6 +608,8 @@ static int open_section(parse_state *p, const char *section)
   case S_CONDITION: once = &p->condition_line; p->target = c; break;
   case S_ALERTS: once = &p->alerts_line; p->target = c; break;
   case S_WRITEBACK: once = &p->writeback_line; p->target = c; break;
+  case S_METRICS: once = &p->metrics_line; p->target = c; break;
+  case S_MQTT: once = &p->mqtt_line; p->target = c; break;
   case S_CHANNEL: {
     int ch = RMP_ChannelFromName(sub);
     if (ch < 0)
@@ -804,6 +898,15 @@ modbus_done:
           c->writeback[k].address == c->writeback[j].address)
         return fail(p, p->writeback_line, "[writeback] %s and %s write the same address %u", CND_KindName(j),
                     CND_KindName(k), c->writeback[k].address);
+  /* [mqtt]: the names built from the machine's, as a reload would build them. */
+  if (c->mqtt.password_file[0] && !c->mqtt.username[0])
+    return fail(p, p->mqtt_line, "[mqtt] password_file: needs a username");
+  if (c->mqtt.reconnect_max_s < c->mqtt.reconnect_min_s)
+    return fail(p, p->mqtt_line, "[mqtt] reconnect_max_s: must not be below reconnect_min_s");
+  if (!c->mqtt.client_id[0])
+    snprintf(c->mqtt.client_id, sizeof c->mqtt.client_id, "gritline-%s", c->machine);
+  if (!c->mqtt.topic_prefix[0])
+    snprintf(c->mqtt.topic_prefix, sizeof c->mqtt.topic_prefix, "gritline/%s", c->machine);
   SEG_Config merged;
   CNF_SegConfig(c, &merged);
   const char *bad = SEG_CheckConfig(&merged);
@@ -842,6 +945,10 @@ static void report(const parse_state *p, const char *path, char *err, size_t err
     snprintf(err, errlen, "%s:%d: %s", path, p->err_line, p->err);
   else
     snprintf(err, errlen, "%s: %s", path, p->err);
+  /* The message echoes what the file holds: a terminal must not act on it. */
+  for (char *q = err; *q; q++)
+    if ((unsigned char)*q < 0x20 || *q == 0x7f)
+      *q = '?';
 }
 
 static int load(CNF_Config *c, const char *path, int replay, char *err, size_t errlen)
@@ -1048,6 +1155,8 @@ void CNF_Print(const CNF_Config *c, FILE *out)
   print_section(out, "condition", &sections[7], c);
   print_section(out, "alerts", &sections[8], c);
   print_section(out, "writeback", &sections[9], c);
+  print_section(out, "metrics", &sections[10], c);
+  print_section(out, "mqtt", &sections[11], c);
 }
 
 void CNF_PrintKeys(FILE *out)

@@ -7,6 +7,8 @@
 
 #include "condition.h"
 #include "mbclient.h"
+#include "metrics.h"
+#include "mqtt.h"
 #include "recording.h"
 #include "regmap.h"
 #include "segment.h"
@@ -83,6 +85,10 @@ typedef struct CNF_Config {
   double hook_timeout_s;      /* s before the hook is killed */
   /* [writeback] */
   CNF_WriteBack writeback[CND_CONDITION_COUNT];
+  /* [metrics]: the HTTP server */
+  MET_Config metrics;
+  /* [mqtt]: the publisher (client_id and topic_prefix are filled from the machine name when not given) */
+  MQT_Config mqtt;
 } CNF_Config;
 
 /* The condition-model settings for the active job and wheel. */

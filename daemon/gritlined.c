@@ -21,7 +21,9 @@
 #include "hook.h"
 #include "log.h"
 #include "mbclient.h"
+#include "metrics.h"
 #include "monitor.h"
+#include "mqtt.h"
 #include "statusjson.h"
 
 #define DEFAULT_CONFIG "/etc/gritline/gritline.conf"
@@ -33,6 +35,9 @@ static const char usage_text[] =
     "Monitors a grinding machine: polls spindle power and axis feeds over Modbus,\n"
     "splits the stream into passes, and writes per shift the recording samples.csv,\n"
     "passes.csv, events.csv and dress_cycles.csv under <data_dir>/<machine>/<date>_<shift>/.\n"
+    "Serves /metrics (Prometheus), /status.json and a live page over HTTP ([metrics],\n"
+    "127.0.0.1:9641 by default) and, with [mqtt] enabled, publishes passes, alerts and a\n"
+    "retained status to an MQTT broker (docs/metrics.md, docs/plant.md).\n"
     "\n"
     "  -c, --config FILE      configuration file (default " DEFAULT_CONFIG ")\n"
     "      --check-config FILE  validate FILE, print the effective configuration, exit\n"
@@ -74,6 +79,16 @@ typedef struct daemon_state {
   unsigned long long reconnects;     /* seen, to know when the controller forgot */
   unsigned long polls, failed_polls;
   int connected;
+  /* The plant side: HTTP server and MQTT publisher (NULL when off). */
+  MET_Server *met;
+  MQT_Client *mqt;
+  MET_Snapshot snap;                 /* filled here, copied by the HTTP server */
+  int plant_dirty;                   /* a pass or an event since the latest snapshot */
+  double next_snapshot;              /* monotonic s */
+  int mqtt_logged;                   /* MQTT state last logged: -1 none, 0 down, 1 up */
+  int connack_logged;                /* CONNACK refusal last logged, 0 = none */
+  unsigned long long dresses;        /* dress events since the start */
+  unsigned long long alerts[CND_CONDITION_COUNT]; /* conditions raised since the start */
 } daemon_state;
 
 static double now_mono(void)
@@ -101,6 +116,8 @@ static void on_pass(void *ctx, const SEG_Pass *p, const CYC_PassInfo *x)
               p->number, p->duration_s, p->depth_mm, p->work_speed_mm_s * 60.0, p->wheel_speed_m_s,
               p->aggressiveness, p->net_power_mean_w, p->specific_energy_j_mm3, p->burn_ratio, x->smoothed_ratio,
               x->cycle, x->pass_in_cycle, p->flags ? " " : "", SEG_FormatFlags(p->flags, flags, sizeof flags));
+  MQT_Pass(d->mqt, p, x, d->cfg.job->name, d->cfg.wheel->name);
+  d->plant_dirty = 1;
 }
 
 static void on_event(void *ctx, const PLG_Event *e)
@@ -117,6 +134,12 @@ static void on_event(void *ctx, const PLG_Event *e)
   LOG_Message(lv, "%s %s: %s", e->kind, PLG_StateName(e->state), e->message);
   if (e->state != PLG_NOTE)
     snprintf(d->last_event, sizeof d->last_event, "%s %s", e->kind, PLG_StateName(e->state));
+  if (e->state == PLG_RAISED && CND_KindFromName(e->kind, &k) == 0 && k < CND_CONDITION_COUNT)
+    d->alerts[k]++;
+  if (e->state == PLG_NOTE && strcmp(e->kind, "dress") == 0)
+    d->dresses++;
+  MQT_Event(d->mqt, e);
+  d->plant_dirty = 1;
 }
 
 static void on_io_error(void *ctx, const char *message)
@@ -181,16 +204,20 @@ static void writeback_sync(daemon_state *d)
   }
 }
 
+/* Now in the samples' time base (the controller's clock when it is read). */
+static double sample_clock(const daemon_state *d)
+{
+  return d->cfg.timestamp_controller
+             ? (isnan(d->last_clock) ? NAN : d->last_clock + (now_mono() - d->last_clock_mono))
+             : now_real();
+}
+
 static long status_json(void *ctx, char *buf, size_t size)
 {
   daemon_state *d = ctx;
   MBC_Counters cnt;
   MBC_GetCounters(d->client, &cnt);
-  MON_Status st;
-  MON_GetStatus(d->mon, &st);
-  double now = d->cfg.timestamp_controller
-                   ? (isnan(d->last_clock) ? NAN : d->last_clock + (now_mono() - d->last_clock_mono))
-                   : now_real();
+  double now = sample_clock(d);
   STJ_Link link = {cnt.connected, now, d->polls, d->failed_polls, MBC_LastError(d->client), "live"};
   return STJ_Format(&d->cfg, d->mon, &link, buf, size);
 }
@@ -296,6 +323,123 @@ static void poll_once(daemon_state *d)
     writeback_sync(d);
 }
 
+/* ---- the plant side: HTTP server and MQTT ---------------------------------- */
+
+/* Fills the snapshot the HTTP server serves and the MQTT status from the
+ * pipeline; no allocation (the snapshot lives in the daemon's state). */
+static void plant_snapshot(daemon_state *d, double mono)
+{
+  d->plant_dirty = 0;
+  d->next_snapshot = mono + 0.25;
+  if (!d->met && !d->mqt)
+    return;
+  MET_Snapshot *s = &d->snap;
+  MON_Status st;
+  MON_GetStatus(d->mon, &st);
+  MBC_GetCounters(d->client, &s->modbus);
+  s->taken = mono;
+  snprintf(s->machine, sizeof s->machine, "%s", d->cfg.machine);
+  snprintf(s->job, sizeof s->job, "%s", d->cfg.job->name);
+  snprintf(s->wheel, sizeof s->wheel, "%s", d->cfg.wheel->name);
+  snprintf(s->version, sizeof s->version, "%s", GRITLINE_VERSION);
+  s->connected = s->modbus.connected;
+  s->in_pass = st.in_pass;
+  const SMP_Sample *x = &st.last_sample;
+  s->spindle_power_w = x->spindle_power_w;
+  s->idle_power_w = st.baseline_w;
+  s->net_power_w = x->spindle_power_w - st.baseline_w;
+  double ds = isnan(x->wheel_diameter_mm) ? d->cfg.wheel->diameter_mm : x->wheel_diameter_mm;
+  s->wheel_speed_m_s = M_PI * ds * x->spindle_speed_rpm / 60000.0;
+  s->work_speed_m_s = x->work_speed_mm_min / 60000.0;
+  s->last_sample_age_s = sample_clock(d) - st.last_sample_time;
+  const SEG_Pass *p = &st.last_pass;
+  s->last_pass = p->number;
+  s->pass_end_time = p->number ? p->end_time : NAN;
+  s->aggressiveness = p->number ? p->aggressiveness : NAN;
+  s->specific_energy_j_m3 = p->number ? p->specific_energy_j_mm3 * 1e9 : NAN; /* 1 mm^3 = 1e-9 m^3 */
+  s->burn_ratio = p->number ? p->burn_ratio : NAN;
+  s->pass_net_power_w = p->number ? p->net_power_mean_w : NAN;
+  s->dull_ratio = p->number ? st.last_info.dull_ratio : NAN;
+  s->dull_ratio_smoothed = p->number ? st.last_info.smoothed_ratio : NAN;
+  s->passes_since_dress = st.passes_in_cycle;
+  s->cycle = st.cycle;
+  s->forecast_passes_left = st.forecast_passes_left;
+  s->aggr_low = d->cfg.wheel->aggr_low;
+  s->aggr_high = d->cfg.wheel->aggr_high;
+  s->dull_limit = d->cfg.wheel->dull_limit;
+  const CND_State *cs = MON_Conditions(d->mon);
+  char cond[400] = "[";
+  size_t used = 1;
+  for (int k = 0; k < CND_CONDITION_COUNT; k++) {
+    s->active[k] = CND_IsActive(cs, (CND_Kind)k);
+    s->alerts_total[k] = d->alerts[k];
+    if (s->active[k] && used < sizeof cond)
+      used += (size_t)snprintf(cond + used, sizeof cond - used, "%s\"%s\"", used > 1 ? "," : "", CND_KindName(k));
+  }
+  if (used < sizeof cond - 1)
+    snprintf(cond + used, sizeof cond - used, "]");
+  s->passes_total = d->passes;
+  s->dresses_total = d->dresses;
+  s->polls = d->polls;
+  s->failed_polls = d->failed_polls;
+  s->mqtt_enabled = d->mqt != NULL;
+  MQT_GetCounters(d->mqt, &s->mqtt);
+  if (d->mqt && s->mqtt.connected != d->mqtt_logged) {
+    if (s->mqtt.connected)
+      LOG_Message(LOG_NOTICE, "MQTT: connected to %s port %u", d->cfg.mqtt.host, d->cfg.mqtt.port);
+    else if (d->mqtt_logged == 1)
+      LOG_Message(LOG_WARNING, "MQTT: connection to the broker lost; messages wait in the queue");
+    d->mqtt_logged = s->mqtt.connected;
+  }
+  if (d->mqt && s->mqtt.last_connack > 0 && s->mqtt.last_connack != d->connack_logged)
+    LOG_Message(LOG_ERR, "MQTT: the broker refused the connection: %s", MQT_ConnackText(s->mqtt.last_connack));
+  d->connack_logged = s->mqtt.last_connack > 0 ? s->mqtt.last_connack : 0;
+  s->status_len = d->met ? status_json(d, s->status_json, sizeof s->status_json) : -1;
+  MET_Publish(d->met, s);
+  /* The retained status follows the communication_lost condition (held off),
+   * not every reconnect of the link. */
+  MQT_Status(d->mqt, d->started ? !st.comm_lost : s->connected, cond, now_real());
+}
+
+/* Starts what [metrics] and [mqtt] ask for. The HTTP server is optional like
+ * the control socket: a port in use is reported and monitoring goes on. */
+static int plant_start(daemon_state *d)
+{
+  char err[512];
+  MET_SnapshotInit(&d->snap);
+  if (d->cfg.metrics.port) {
+    d->met = MET_Start(&d->cfg.metrics, err, sizeof err);
+    if (!d->met)
+      LOG_Message(LOG_WARNING, "HTTP server unavailable, monitoring goes on without it: %s: %s", d->cfg.path, err);
+    else
+      LOG_Message(LOG_NOTICE, "HTTP server on %s port %u: /metrics, /status.json, live page at /",
+                  d->cfg.metrics.listen, MET_Port(d->met));
+  }
+  d->mqtt_logged = -1;
+  d->connack_logged = 0;
+  if (d->cfg.mqtt.enabled) {
+    d->mqt = MQT_Create(&d->cfg.mqtt, d->cfg.machine, err, sizeof err);
+    if (!d->mqt) {
+      LOG_Message(LOG_ERR, "%s: %s", d->cfg.path, err);
+      return -1;
+    }
+    LOG_Message(LOG_NOTICE, "MQTT: publishing to %s port %u under %s/", d->cfg.mqtt.host, d->cfg.mqtt.port,
+                MQT_Prefix(d->mqt));
+  }
+  plant_snapshot(d, now_mono());
+  return 0;
+}
+
+static void plant_stop(daemon_state *d)
+{
+  if (d->mqt)
+    MQT_Service(d->mqt, now_mono()); /* what the pipeline said last goes out first */
+  MQT_Destroy(d->mqt, 2.0);
+  d->mqt = NULL;
+  MET_Stop(d->met);
+  d->met = NULL;
+}
+
 static void reload(daemon_state *d)
 {
   char err[512], text[600];
@@ -306,18 +450,38 @@ static void reload(daemon_state *d)
     if (d->started)
       MON_Mark(d->mon, -1.0, "config", text);
   } else {
+    int writeback_changed = memcmp(d->next.writeback, d->cfg.writeback, sizeof d->cfg.writeback) != 0;
     int modbus_changed = memcmp(&d->next.modbus, &d->cfg.modbus, sizeof d->cfg.modbus) != 0 ||
-                         memcmp(&d->next.map, &d->cfg.map, sizeof d->cfg.map) != 0;
+                         memcmp(&d->next.map, &d->cfg.map, sizeof d->cfg.map) != 0 || writeback_changed;
+    /* A lamp that moves or goes away is put out first, while the old client
+     * may still write its address. */
+    for (int k = 0; writeback_changed && k < CND_CONDITION_COUNT; k++) {
+      const CNF_WriteBack *o = &d->cfg.writeback[k];
+      if (o->kind != CNF_WB_NONE && memcmp(o, &d->next.writeback[k], sizeof *o) != 0 && d->wb_done[k] != 0)
+        (void)(o->kind == CNF_WB_COIL ? MBC_WriteCoil(d->client, o->address, 0)
+                                      : MBC_WriteRegister(d->client, o->address, 0));
+    }
     if (modbus_changed && make_client(d, &d->next) != 0) {
       LOG_Message(LOG_ERR, "reload refused: the new Modbus settings cannot be used");
       if (d->started)
         MON_Mark(d->mon, -1.0, "config", "refused: the new Modbus settings cannot be used");
     } else {
+      int plant_changed = memcmp(&d->next.metrics, &d->cfg.metrics, sizeof d->cfg.metrics) != 0 ||
+                          memcmp(&d->next.mqtt, &d->cfg.mqtt, sizeof d->cfg.mqtt) != 0;
+      if (plant_changed)
+        plant_stop(d);
       d->cfg = d->next;
       d->cfg.job = &d->cfg.jobs[d->next.job - d->next.jobs];
       d->cfg.wheel = &d->cfg.wheels[d->next.wheel - d->next.wheels];
       MON_Reconfigure(d->mon, &d->cfg);
-      HOK_Init(&d->hooks, d->cfg.hook, d->cfg.hook_timeout_s, d->cfg.machine);
+      /* The running hooks stay supervised: only what starts next changes. */
+      snprintf(d->hooks.path, sizeof d->hooks.path, "%s", d->cfg.hook);
+      d->hooks.timeout_s = d->cfg.hook_timeout_s;
+      snprintf(d->hooks.machine, sizeof d->hooks.machine, "%s", d->cfg.machine);
+      if (!d->hooks.path[0])
+        d->hooks.len = 0; /* no hook any more: nothing waits to start */
+      if (plant_changed && plant_start(d) != 0)
+        LOG_Message(LOG_ERR, "MQTT stays off until the next reload or restart");
       snprintf(text, sizeof text, "loaded: %s, job %s, wheel %s", d->cfg.path, d->cfg.job->name, d->cfg.wheel->name);
       LOG_Message(LOG_NOTICE, "configuration %s", text);
       if (d->started)
@@ -359,6 +523,9 @@ static int run(daemon_state *d, double run_for)
     LOG_Message(LOG_ERR, "timerfd_settime: %s", strerror(errno));
     return EX_OSERR;
   }
+  /* After the signals are blocked: the HTTP and MQTT threads inherit the mask. */
+  if (plant_start(d) != 0)
+    return EX_CONFIG;
   uint64_t wd_usec = 0;
   if (sd_watchdog_enabled(0, &wd_usec) > 0)
     d->watchdog_s = wd_usec / 2e6;
@@ -403,6 +570,9 @@ static int run(daemon_state *d, double run_for)
       send_status(d);
       d->next_status = m + 2.0;
     }
+    if (d->plant_dirty || m >= d->next_snapshot)
+      plant_snapshot(d, m);
+    MQT_Service(d->mqt, m);
     if (run_for > 0 && m - t0 >= run_for)
       stop = 1;
   }
@@ -410,6 +580,8 @@ static int run(daemon_state *d, double run_for)
   if (d->started)
     MON_Mark(d->mon, -1.0, "stop", "gritlined stopped");
   HOK_Finish(&d->hooks, 2.0);
+  plant_snapshot(d, now_mono());
+  plant_stop(d);
   if (d->missed_ticks)
     LOG_Message(LOG_NOTICE, "%llu polls skipped because a poll overran its period",
                 (unsigned long long)d->missed_ticks);

@@ -129,14 +129,11 @@ class Hook(L.LiveCase):
         print("sleeping hook killed %.1f s after it started (limit 1 s); %d samples recorded meanwhile" %
               (killed_after, rows1 - rows0), file=sys.stderr)
 
-    @unittest.expectedFailure  # gritlined.c reload() calls HOK_Init, which forgets the running hooks
     def test_reload_keeps_running_hook_supervised(self):
         """A SIGHUP while a hook runs: the hook is still killed at its time limit, and reaped.
 
-        Known bug (reported, not fixed here: daemon/gritlined.c belongs to another change):
-        reload() re-initialises the hook table, so a hook running at the reload is never
-        killed nor reaped (it outlives hook_timeout_s, then stays a zombie). Remove the
-        expectedFailure once reload() keeps the table (updates path, timeout and machine only)."""
+        reload() once re-initialised the hook table, so a hook running at the reload was never
+        killed nor reaped (it outlived hook_timeout_s, then stayed a zombie)."""
         sim = self.start_sim(L.scenario("short.ini"), SPEED)
         sleeper, sleep_out = self.write_hook("sleeper", SLEEPER)
         conf = L.sim_conf(sim.port, speed=SPEED, extra={"alerts": {"hook": sleeper, "hook_timeout_s": "1"}},

@@ -104,15 +104,12 @@ class Reload(L.LiveCase):
         self.assertEqual(third, {20.0})
 
 
-    @unittest.expectedFailure  # gritlined.c reload() keeps the old write-back addresses
     def test_writeback_moves_with_reload(self):
         """A reload that moves a write-back lamp: the old coil is put out, the new one set.
 
-        Known bug (reported, not fixed here: daemon/gritlined.c belongs to another change):
-        reload() rebuilds the Modbus client (and its list of writable addresses) only when
-        [modbus] or the channels change, and the write-back state is kept per condition, not
-        per address: after moving low_aggressiveness from coil 2 to coil 3 the old coil stays
-        on and the new one is never written. Remove the expectedFailure with the fix."""
+        reload() once rebuilt the Modbus client (and its list of writable addresses) only when
+        [modbus] or the channels changed: after moving low_aggressiveness from coil 2 to coil 3
+        the old coil stayed on and the new one was never written."""
         sim = self.start_sim(L.scenario("short.ini"), SPEED)
         window = {"aggr_low": 25, "aggr_high": 30}  # short.ini runs below it: low_aggressiveness
         conf = L.sim_conf(sim.port, speed=SPEED, extra={"writeback": {"low_aggressiveness": "coil 2"}}, **window)
