@@ -1,6 +1,8 @@
 /* metrics.c: the read-only HTTP server: Prometheus exposition, the status JSON and the live page. */
 #include "metrics.h"
 
+#include "textbuf.h"
+
 #include <arpa/inet.h>
 #include <errno.h>
 #include <math.h>
@@ -30,97 +32,77 @@ void MET_SnapshotInit(MET_Snapshot *s)
 
 /* ---- the exposition text ------------------------------------------------ */
 
-typedef struct tbuf {
-  char *b;
-  size_t size, used;
-  int bad;
-} tbuf;
-
-__attribute__((format(printf, 2, 3))) static void put(tbuf *t, const char *fmt, ...)
-{
-  if (t->bad)
-    return;
-  va_list ap;
-  va_start(ap, fmt);
-  int n = vsnprintf(t->b + t->used, t->size - t->used, fmt, ap);
-  va_end(ap);
-  if (n < 0 || (size_t)n >= t->size - t->used)
-    t->bad = 1;
-  else
-    t->used += (size_t)n;
-}
-
 /* Label values escape backslash, double quote and line feed (exposition
  * format 0.0.4, "Text format details"; from memory). */
-static void label_value(tbuf *t, const char *v)
+static void label_value(TXB_Buf *t, const char *v)
 {
   for (; *v; v++) {
     if (*v == '\\' || *v == '"')
-      put(t, "\\%c", *v);
+      TXB_Put(t, "\\%c", *v);
     else if (*v == '\n')
-      put(t, "\\n");
+      TXB_Put(t, "\\n");
     else
-      put(t, "%c", *v);
+      TXB_Put(t, "%c", *v);
   }
 }
 
-static void head(tbuf *t, const char *name, const char *type, const char *help)
+static void head(TXB_Buf *t, const char *name, const char *type, const char *help)
 {
-  put(t, "# HELP %s %s\n# TYPE %s %s\n", name, help, name, type);
+  TXB_Put(t, "# HELP %s %s\n# TYPE %s %s\n", name, help, name, type);
 }
 
 /* One sample: the machine label, then an optional second label. */
-static void sample_start(tbuf *t, const MET_Snapshot *s, const char *name, const char *lname, const char *lvalue)
+static void sample_start(TXB_Buf *t, const MET_Snapshot *s, const char *name, const char *lname, const char *lvalue)
 {
-  put(t, "%s{machine=\"", name);
+  TXB_Put(t, "%s{machine=\"", name);
   label_value(t, s->machine);
-  put(t, "\"");
+  TXB_Put(t, "\"");
   if (lname) {
-    put(t, ",%s=\"", lname);
+    TXB_Put(t, ",%s=\"", lname);
     label_value(t, lvalue);
-    put(t, "\"");
+    TXB_Put(t, "\"");
   }
-  put(t, "} ");
+  TXB_Put(t, "} ");
 }
 
 /* Go's float syntax as Prometheus reads it: NaN, +Inf, -Inf. */
-static void value(tbuf *t, double v)
+static void value(TXB_Buf *t, double v)
 {
   if (isnan(v))
-    put(t, "NaN\n");
+    TXB_Put(t, "NaN\n");
   else if (isinf(v))
-    put(t, "%sInf\n", v > 0 ? "+" : "-");
+    TXB_Put(t, "%sInf\n", v > 0 ? "+" : "-");
   else
-    put(t, "%.10g\n", v);
+    TXB_Put(t, "%.10g\n", v);
 }
 
-static void gauge(tbuf *t, const MET_Snapshot *s, const char *name, const char *help, double v)
+static void gauge(TXB_Buf *t, const MET_Snapshot *s, const char *name, const char *help, double v)
 {
   head(t, name, "gauge", help);
   sample_start(t, s, name, NULL, NULL);
   value(t, v);
 }
 
-static void counter(tbuf *t, const MET_Snapshot *s, const char *name, const char *help, unsigned long long v)
+static void counter(TXB_Buf *t, const MET_Snapshot *s, const char *name, const char *help, unsigned long long v)
 {
   head(t, name, "counter", help);
   sample_start(t, s, name, NULL, NULL);
-  put(t, "%llu\n", v);
+  TXB_Put(t, "%llu\n", v);
 }
 
 long MET_FormatMetrics(const MET_Snapshot *s, double now, char *buf, size_t size)
 {
-  tbuf t = {buf, size, 0, 0};
+  TXB_Buf t = {buf, size, 0, 0};
   head(&t, "gritline_info", "gauge", "Always 1; the labels name the version, the active job and the wheel.");
-  put(&t, "gritline_info{machine=\"");
+  TXB_Put(&t, "gritline_info{machine=\"");
   label_value(&t, s->machine);
-  put(&t, "\",version=\"");
+  TXB_Put(&t, "\",version=\"");
   label_value(&t, s->version);
-  put(&t, "\",job=\"");
+  TXB_Put(&t, "\",job=\"");
   label_value(&t, s->job);
-  put(&t, "\",wheel=\"");
+  TXB_Put(&t, "\",wheel=\"");
   label_value(&t, s->wheel);
-  put(&t, "\"} 1\n");
+  TXB_Put(&t, "\"} 1\n");
 
   /* Live values. */
   gauge(&t, s, "gritline_controller_connected", "1 while the machine controller answers over Modbus.", s->connected);
@@ -161,7 +143,7 @@ long MET_FormatMetrics(const MET_Snapshot *s, double now, char *buf, size_t size
   head(&t, "gritline_condition_active", "gauge", "1 while the condition is active.");
   for (int k = 0; k < CND_CONDITION_COUNT; k++) {
     sample_start(&t, s, "gritline_condition_active", "kind", CND_KindName((CND_Kind)k));
-    put(&t, "%d\n", s->active[k] ? 1 : 0);
+    TXB_Put(&t, "%d\n", s->active[k] ? 1 : 0);
   }
 
   /* Counters since the daemon started. */
@@ -170,7 +152,7 @@ long MET_FormatMetrics(const MET_Snapshot *s, double now, char *buf, size_t size
   head(&t, "gritline_alerts_total", "counter", "Conditions raised, by kind.");
   for (int k = 0; k < CND_CONDITION_COUNT; k++) {
     sample_start(&t, s, "gritline_alerts_total", "kind", CND_KindName((CND_Kind)k));
-    put(&t, "%llu\n", s->alerts_total[k]);
+    TXB_Put(&t, "%llu\n", s->alerts_total[k]);
   }
   counter(&t, s, "gritline_polls_total", "Modbus polls of the register map.", s->polls);
   counter(&t, s, "gritline_failed_polls_total", "Polls that obtained no value.", s->failed_polls);
@@ -192,16 +174,16 @@ long MET_FormatMetrics(const MET_Snapshot *s, double now, char *buf, size_t size
     head(&t, "gritline_mqtt_messages_dropped_total", "counter",
          "Messages dropped from a full queue while the broker was away, by class.");
     sample_start(&t, s, "gritline_mqtt_messages_dropped_total", "class", "pass");
-    put(&t, "%llu\n", s->mqtt.dropped_passes);
+    TXB_Put(&t, "%llu\n", s->mqtt.dropped_passes);
     sample_start(&t, s, "gritline_mqtt_messages_dropped_total", "class", "alert");
-    put(&t, "%llu\n", s->mqtt.dropped_alerts);
+    TXB_Put(&t, "%llu\n", s->mqtt.dropped_alerts);
     counter(&t, s, "gritline_mqtt_unconfirmed_total", "QoS 1 messages whose acknowledgement never came.",
             s->mqtt.unconfirmed);
     head(&t, "gritline_mqtt_queued_messages", "gauge", "Messages waiting for the broker, by class.");
     sample_start(&t, s, "gritline_mqtt_queued_messages", "class", "pass");
-    put(&t, "%u\n", s->mqtt.queued_passes);
+    TXB_Put(&t, "%u\n", s->mqtt.queued_passes);
     sample_start(&t, s, "gritline_mqtt_queued_messages", "class", "alert");
-    put(&t, "%u\n", s->mqtt.queued_alerts);
+    TXB_Put(&t, "%u\n", s->mqtt.queued_alerts);
   }
   return t.bad ? -1 : (long)t.used;
 }

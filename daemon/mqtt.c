@@ -1,6 +1,8 @@
 /* mqtt.c: the MQTT publisher: payloads, the bounded queue, and libmosquitto's network thread. */
 #include "mqtt.h"
 
+#include "textbuf.h"
+
 #include <errno.h>
 #include <math.h>
 #include <mosquitto.h>
@@ -17,71 +19,45 @@
 
 /* ---- payloads ------------------------------------------------------------ */
 
-typedef struct jbuf {
-  char *b;
-  size_t size, used;
-  int bad;
-} jbuf;
-
-__attribute__((format(printf, 2, 3))) static void put(jbuf *j, const char *fmt, ...)
+static void str(TXB_Buf *j, const char *key, const char *value)
 {
-  if (j->bad)
-    return;
-  va_list ap;
-  va_start(ap, fmt);
-  int n = vsnprintf(j->b + j->used, j->size - j->used, fmt, ap);
-  va_end(ap);
-  if (n < 0 || (size_t)n >= j->size - j->used)
-    j->bad = 1;
-  else
-    j->used += (size_t)n;
-}
-
-static void str(jbuf *j, const char *key, const char *value)
-{
-  char tmp[1200];
-  if (STJ_String(value, tmp, sizeof tmp) < 0)
-    snprintf(tmp, sizeof tmp, "\"\""); /* only a message can be this long; the event still goes */
-  put(j, ",\"%s\":%s", key, tmp);
+  TXB_Put(j, ",\"%s\":", key);
+  TXB_JsonString(j, value);
 }
 
 /* NAN and infinities are not JSON: null. */
-static void num(jbuf *j, const char *key, double v)
+static void num(TXB_Buf *j, const char *key, double v)
 {
   if (isfinite(v))
-    put(j, ",\"%s\":%.7g", key, v);
+    TXB_Put(j, ",\"%s\":%.7g", key, v);
   else
-    put(j, ",\"%s\":null", key);
+    TXB_Put(j, ",\"%s\":null", key);
 }
 
 /* Times to the millisecond, whatever their size. */
-static void tnum(jbuf *j, const char *key, double v)
+static void tnum(TXB_Buf *j, const char *key, double v)
 {
   if (isfinite(v))
-    put(j, ",\"%s\":%.3f", key, v);
+    TXB_Put(j, ",\"%s\":%.3f", key, v);
   else
-    put(j, ",\"%s\":null", key);
+    TXB_Put(j, ",\"%s\":null", key);
 }
 
-static long done(const jbuf *j) { return j->bad ? -1 : (long)j->used; }
-
-static void open_object(jbuf *j, const char *machine)
+static void open_object(TXB_Buf *j, const char *machine)
 {
-  char tmp[200];
-  if (STJ_String(machine, tmp, sizeof tmp) < 0)
-    snprintf(tmp, sizeof tmp, "\"\"");
-  put(j, "{\"machine\":%s", tmp);
+  TXB_Put(j, "{\"machine\":");
+  TXB_JsonString(j, machine);
 }
 
 long MQT_FormatPass(const char *machine, const SEG_Pass *p, const CYC_PassInfo *x, const char *job, const char *wheel,
                     char *buf, size_t size)
 {
-  jbuf j = {buf, size, 0, 0};
+  TXB_Buf j = TXB_INIT(buf, size);
   char flags[160];
   open_object(&j, machine);
   str(&j, "job", job);
   str(&j, "wheel", wheel);
-  put(&j, ",\"pass\":%lu", p->number);
+  TXB_Put(&j, ",\"pass\":%lu", p->number);
   tnum(&j, "start_time", p->start_time);
   tnum(&j, "end_time", p->end_time);
   num(&j, "duration_s", p->duration_s);
@@ -99,46 +75,46 @@ long MQT_FormatPass(const char *machine, const SEG_Pass *p, const CYC_PassInfo *
   num(&j, "burn_ratio", p->burn_ratio);
   str(&j, "flags", SEG_FormatFlags(p->flags, flags, sizeof flags));
   if (x) {
-    put(&j, ",\"cycle\":%lu,\"pass_in_cycle\":%lu", x->cycle, x->pass_in_cycle);
+    TXB_Put(&j, ",\"cycle\":%lu,\"pass_in_cycle\":%lu", x->cycle, x->pass_in_cycle);
     num(&j, "dull_ratio", x->dull_ratio);
     num(&j, "dull_ratio_smoothed", x->smoothed_ratio);
     num(&j, "forecast_passes_left", x->forecast_passes_left);
     num(&j, "g_ratio", x->g_ratio);
   }
-  put(&j, "}");
-  return done(&j);
+  TXB_Put(&j, "}");
+  return TXB_Done(&j);
 }
 
 long MQT_FormatEvent(const char *machine, const PLG_Event *e, char *buf, size_t size)
 {
-  jbuf j = {buf, size, 0, 0};
+  TXB_Buf j = TXB_INIT(buf, size);
   open_object(&j, machine);
   tnum(&j, "time", e->time);
   str(&j, "kind", e->kind);
-  put(&j, ",\"state\":\"%s\",\"severity\":\"%s\",\"pass\":%lu", PLG_StateName(e->state),
+  TXB_Put(&j, ",\"state\":\"%s\",\"severity\":\"%s\",\"pass\":%lu", PLG_StateName(e->state),
       PLG_SeverityName(e->severity), e->pass);
   num(&j, "value", e->value);
   num(&j, "limit", e->limit);
   str(&j, "message", e->message);
-  put(&j, "}");
-  return done(&j);
+  TXB_Put(&j, "}");
+  return TXB_Done(&j);
 }
 
 long MQT_FormatStatus(const char *machine, int online, const char *reason, int controller_connected,
                       const char *conditions_json, double time, char *buf, size_t size)
 {
-  jbuf j = {buf, size, 0, 0};
+  TXB_Buf j = TXB_INIT(buf, size);
   open_object(&j, machine);
-  put(&j, ",\"online\":%s", online ? "true" : "false");
+  TXB_Put(&j, ",\"online\":%s", online ? "true" : "false");
   str(&j, "reason", reason);
   if (controller_connected >= 0)
-    put(&j, ",\"connection\":\"%s\"", controller_connected ? "up" : "down");
+    TXB_Put(&j, ",\"connection\":\"%s\"", controller_connected ? "up" : "down");
   else
-    put(&j, ",\"connection\":null");
-  put(&j, ",\"conditions\":%s", conditions_json && *conditions_json ? conditions_json : "null");
+    TXB_Put(&j, ",\"connection\":null");
+  TXB_Put(&j, ",\"conditions\":%s", conditions_json && *conditions_json ? conditions_json : "null");
   tnum(&j, "time", time);
-  put(&j, "}");
-  return done(&j);
+  TXB_Put(&j, "}");
+  return TXB_Done(&j);
 }
 
 /* ---- the queue ----------------------------------------------------------- */

@@ -1,6 +1,8 @@
 /* report.c: `gritline report`: shift reports from the logs as HTML with inline SVG charts, text or JSON. */
 #include "report.h"
 
+#include "textbuf.h"
+
 #include <dirent.h>
 #include <errno.h>
 #include <getopt.h>
@@ -916,41 +918,27 @@ static void write_text(const report *R, FILE *f)
 
 /* ------------------------------------------------------------------ JSON */
 
-static void json_str(FILE *f, const char *t)
-{
-  fputc('"', f);
-  for (const unsigned char *p = (const unsigned char *)(t ? t : ""); *p; p++) {
-    if (*p == '"' || *p == '\\')
-      fprintf(f, "\\%c", *p);
-    else if (*p < 0x20)
-      fprintf(f, "\\u%04x", *p);
-    else
-      fputc(*p, f);
-  }
-  fputc('"', f);
-}
-
 static void json_num(FILE *f, double v) { SUM_JsonNumber(f, v); }
 
 static void write_json(const report *R, FILE *f)
 {
   const limits *l = &R->lim;
   fputs("{\n  \"format\": \"gritline-report/1\",\n  \"machine\": ", f);
-  json_str(f, R->total.machine);
+  TXB_FileJsonString(f, R->total.machine);
   fputs(",\n  \"job\": ", f);
-  json_str(f, R->total.job);
+  TXB_FileJsonString(f, R->total.job);
   fputs(",\n  \"wheel\": ", f);
-  json_str(f, R->total.wheel);
+  TXB_FileJsonString(f, R->total.wheel);
   fputs(",\n  \"limits\": {\"source\": ", f);
-  json_str(f, l->from_config ? "config" : "defaults");
+  TXB_FileJsonString(f, l->from_config ? "config" : "defaults");
   fputs(", \"config\": ", f);
   if (l->from_config)
-    json_str(f, l->config);
+    TXB_FileJsonString(f, l->config);
   else
     fputs("null", f);
   fputs(", \"wheel\": ", f);
   if (l->from_config)
-    json_str(f, l->wheel);
+    TXB_FileJsonString(f, l->wheel);
   else
     fputs("null", f);
   fputs(", \"aggr_low\": ", f), json_num(f, l->aggr_low);
@@ -962,9 +950,9 @@ static void write_json(const report *R, FILE *f)
   fputs(",\n  \"shifts\": [", f);
   for (int i = 0; i < R->d.n_folders; i++) {
     fprintf(f, "%s\n    {\"folder\": ", i ? "," : "");
-    json_str(f, R->d.folders[i].path);
+    TXB_FileJsonString(f, R->d.folders[i].path);
     fputs(", \"figures_from\": ", f);
-    json_str(f, R->shift_source[i]);
+    TXB_FileJsonString(f, R->shift_source[i]);
     fputs(", \"summary\": ", f);
     SUM_WriteJson(f, &R->shift[i], NULL, i, 4);
     fputc('}', f);
@@ -975,11 +963,11 @@ static void write_json(const report *R, FILE *f)
     fprintf(f, "%s\n    {\"tag\": \"A%zu\", \"time\": ", i ? "," : "", i + 1);
     json_num(f, e->time);
     fputs(", \"shift\": ", f);
-    json_str(f, R->d.folders[e->folder].label);
+    TXB_FileJsonString(f, R->d.folders[e->folder].label);
     fprintf(f, ", \"pass\": %lu, \"kind\": ", e->pass);
-    json_str(f, e->kind);
+    TXB_FileJsonString(f, e->kind);
     fputs(", \"severity\": ", f);
-    json_str(f, e->severity);
+    TXB_FileJsonString(f, e->severity);
     fputs(", \"value\": ", f), json_num(f, e->value);
     fputs(", \"limit\": ", f), json_num(f, e->limit);
     if (R->alerts[i].cleared != SIZE_MAX) {
@@ -990,21 +978,21 @@ static void write_json(const report *R, FILE *f)
       fputs(", \"cleared_pass\": null, \"cleared_time\": null", f);
     }
     fputs(", \"message\": ", f);
-    json_str(f, e->message);
+    TXB_FileJsonString(f, e->message);
     fputc('}', f);
   }
   advice v;
   make_advice(R, &v);
   fputs("\n  ],\n  \"advice\": [", f);
-  json_str(f, v.dress);
+  TXB_FileJsonString(f, v.dress);
   fputs(", ", f);
-  json_str(f, v.speed);
+  TXB_FileJsonString(f, v.speed);
   if (v.burn[0]) {
     fputs(", ", f);
-    json_str(f, v.burn);
+    TXB_FileJsonString(f, v.burn);
   }
   fputs("],\n  \"caution\": ", f);
-  json_str(f, caution_text);
+  TXB_FileJsonString(f, caution_text);
   fputs("\n}\n", f);
 }
 

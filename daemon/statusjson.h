@@ -19,7 +19,5 @@ typedef struct STJ_Link {
 
 /* Writes one line of JSON (no newline). Returns its length or -1 when buf is too small. */
 long STJ_Format(const CNF_Config *cfg, const MON_Monitor *mon, const STJ_Link *link, char *buf, size_t size);
-/* Writes text as a JSON string (with the quotes). Returns the length or -1. */
-long STJ_String(const char *text, char *buf, size_t size);
 
 #endif

@@ -1,6 +1,8 @@
 /* summary.c: reads shift folders and computes their headline figures; writes summary.json. */
 #include "summary.h"
 
+#include "textbuf.h"
+
 #include <errno.h>
 #include <fcntl.h>
 #include <math.h>
@@ -683,20 +685,6 @@ int SUM_Compute(const char *dir, const SUM_Window *w, SUM_Summary *s, int *not_f
 
 /* ---------------------------------------------------------------- JSON */
 
-static void json_string(FILE *f, const char *t)
-{
-  fputc('"', f);
-  for (const unsigned char *p = (const unsigned char *)t; *p; p++) {
-    if (*p == '"' || *p == '\\')
-      fprintf(f, "\\%c", *p);
-    else if (*p < 0x20)
-      fprintf(f, "\\u%04x", *p);
-    else
-      fputc(*p, f);
-  }
-  fputc('"', f);
-}
-
 void SUM_JsonNumber(FILE *f, double v)
 {
   if (!isfinite(v)) {
@@ -724,12 +712,12 @@ static void key(jw *j, const char *k)
 {
   fprintf(j->f, "%s\n%*s", j->first ? "" : ",", j->indent, "");
   j->first = 0;
-  json_string(j->f, k);
+  TXB_FileJsonString(j->f, k);
   fputs(": ", j->f);
 }
 static void kn(jw *j, const char *k, double v) { key(j, k), json_number(j->f, v); }
 static void ku(jw *j, const char *k, unsigned long v) { key(j, k), fprintf(j->f, "%lu", v); }
-static void ks(jw *j, const char *k, const char *v) { key(j, k), json_string(j->f, v); }
+static void ks(jw *j, const char *k, const char *v) { key(j, k), TXB_FileJsonString(j->f, v); }
 
 void SUM_WriteJson(FILE *f, const SUM_Summary *s, const SUM_Data *d, int folder, int indent)
 {
@@ -769,7 +757,7 @@ void SUM_WriteJson(FILE *f, const SUM_Summary *s, const SUM_Data *d, int folder,
   fputc('[', f);
   for (int i = 0; i < s->n_kinds; i++) {
     fprintf(f, "%s{\"kind\": ", i ? ", " : "");
-    json_string(f, s->kinds[i].kind);
+    TXB_FileJsonString(f, s->kinds[i].kind);
     fprintf(f, ", \"raised\": %lu}", s->kinds[i].raised);
   }
   fputc(']', f);
@@ -806,11 +794,11 @@ void SUM_WriteJson(FILE *f, const SUM_Summary *s, const SUM_Data *d, int folder,
         continue;
       fprintf(f, "%s\n%*s{\"cycle\": %lu, \"shift\": ", first ? "" : ",", j.indent + 2, "", y->cycle);
       first = 0;
-      json_string(f, y->folder >= 0 && y->folder < d->n_folders ? d->folders[y->folder].label : "");
+      TXB_FileJsonString(f, y->folder >= 0 && y->folder < d->n_folders ? d->folders[y->folder].label : "");
       fputs(", \"wheel\": ", f);
-      json_string(f, y->wheel);
+      TXB_FileJsonString(f, y->wheel);
       fputs(", \"job\": ", f);
-      json_string(f, y->job);
+      TXB_FileJsonString(f, y->job);
       fputs(", \"start_time\": ", f), json_number(f, y->start_time);
       fputs(", \"end_time\": ", f), json_number(f, y->end_time);
       fprintf(f, ", \"passes\": %lu", y->passes);
@@ -818,8 +806,8 @@ void SUM_WriteJson(FILE *f, const SUM_Summary *s, const SUM_Data *d, int folder,
       fputs(", \"reference_specific_energy_j_mm3\": ", f), json_number(f, y->u_ref_j_mm3);
       fputs(", \"final_dull_ratio\": ", f), json_number(f, y->final_ratio);
       fputs(", \"g_ratio\": ", f), json_number(f, y->g_ratio);
-      fputs(", \"started_by\": ", f), json_string(f, y->started_by);
-      fputs(", \"ended_by\": ", f), json_string(f, y->ended_by);
+      fputs(", \"started_by\": ", f), TXB_FileJsonString(f, y->started_by);
+      fputs(", \"ended_by\": ", f), TXB_FileJsonString(f, y->ended_by);
       fputs(", \"forecast_volume_mm3_mm\": ", f), json_number(f, y->forecast_v_prime_mm3_mm);
       fprintf(f, ", \"forecast_right\": %s", y->forecast_right < 0 ? "null" : y->forecast_right ? "true" : "false");
       fputs(", \"limit_volume_mm3_mm\": ", f), json_number(f, y->limit_v_prime_mm3_mm);

@@ -1,6 +1,8 @@
 /* passlog.c: the logs passes.csv, events.csv and dress_cycles.csv. */
 #include "passlog.h"
 
+#include "textbuf.h"
+
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
@@ -22,38 +24,19 @@ const char PLG_CYCLES_HEADER[] =
     "reference_exponent,final_dull_ratio,g_ratio,wheel_wear_um,started_by,ended_by,forecast_pass,"
     "forecast_volume_mm3_mm,forecast_right,limit_pass,limit_volume_mm3_mm";
 
-typedef struct out {
-  char *buf;
-  size_t size, used;
-  int bad;
-} out;
-
-__attribute__((format(printf, 2, 3))) static void put(out *o, const char *fmt, ...)
-{
-  if (o->bad)
-    return;
-  va_list ap;
-  va_start(ap, fmt);
-  int n = vsnprintf(o->buf + o->used, o->size - o->used, fmt, ap);
-  va_end(ap);
-  if (n < 0 || (size_t)n >= o->size - o->used)
-    o->bad = 1;
-  else
-    o->used += (size_t)n;
-}
 
 /* A number with `dec` decimals, or an empty field when unknown. */
-static void num(out *o, double v, int dec)
+static void num(TXB_Buf *o, double v, int dec)
 {
   if (isfinite(v))
-    put(o, ",%.*f", dec, v);
+    TXB_Put(o, ",%.*f", dec, v);
   else
-    put(o, ",");
+    TXB_Put(o, ",");
 }
 
 long PLG_FormatPass(const SEG_Pass *p, const CYC_PassInfo *x, char *buf, size_t size)
 {
-  out o = {buf, size, 0, 0};
+  TXB_Buf o = TXB_INIT(buf, size);
   char flags[160];
   CYC_PassInfo none;
   if (!x) {
@@ -63,11 +46,11 @@ long PLG_FormatPass(const SEG_Pass *p, const CYC_PassInfo *x, char *buf, size_t 
     none.power_slope_j_mm3 = none.radial_wear_um = none.g_ratio = NAN;
     x = &none;
   }
-  put(&o, "%lu,%.3f,%.3f,%.3f,", p->number, p->start_time, p->end_time, p->duration_s);
+  TXB_Put(&o, "%lu,%.3f,%.3f,%.3f,", p->number, p->start_time, p->end_time, p->duration_s);
   if (x->cycle)
-    put(&o, "%lu,%lu", x->cycle, x->pass_in_cycle);
+    TXB_Put(&o, "%lu,%lu", x->cycle, x->pass_in_cycle);
   else
-    put(&o, ",");
+    TXB_Put(&o, ",");
   num(&o, p->depth_mm, 6);
   num(&o, p->work_speed_mm_s * 60.0, 1);
   num(&o, p->wheel_speed_m_s, 3);
@@ -99,8 +82,8 @@ long PLG_FormatPass(const SEG_Pass *p, const CYC_PassInfo *x, char *buf, size_t 
   num(&o, x->power_slope_j_mm3, 4);
   num(&o, x->radial_wear_um, 4);
   num(&o, x->g_ratio, 2);
-  put(&o, ",%s\n", SEG_FormatFlags(p->flags, flags, sizeof flags));
-  return o.bad ? -1 : (long)o.used;
+  TXB_Put(&o, ",%s\n", SEG_FormatFlags(p->flags, flags, sizeof flags));
+  return TXB_Done(&o);
 }
 
 const char *PLG_SeverityName(PLG_Severity s)
@@ -143,26 +126,26 @@ long PLG_CsvField(const char *text, char *buf, size_t size)
 
 long PLG_FormatEvent(const PLG_Event *e, char *buf, size_t size)
 {
-  out o = {buf, size, 0, 0};
+  TXB_Buf o = TXB_INIT(buf, size);
   char msg[sizeof e->message * 2 + 4];
   if (PLG_CsvField(e->message, msg, sizeof msg) < 0)
     return -1;
-  put(&o, "%.3f,%s,%s,%s,", e->time, e->kind, PLG_SeverityName(e->severity), PLG_StateName(e->state));
+  TXB_Put(&o, "%.3f,%s,%s,%s,", e->time, e->kind, PLG_SeverityName(e->severity), PLG_StateName(e->state));
   if (e->pass)
-    put(&o, "%lu", e->pass);
+    TXB_Put(&o, "%lu", e->pass);
   num(&o, e->value, 4);
   num(&o, e->limit, 4);
-  put(&o, ",%s\n", msg);
-  return o.bad ? -1 : (long)o.used;
+  TXB_Put(&o, ",%s\n", msg);
+  return TXB_Done(&o);
 }
 
 long PLG_FormatCycle(const CYC_Record *c, char *buf, size_t size)
 {
-  out o = {buf, size, 0, 0};
+  TXB_Buf o = TXB_INIT(buf, size);
   char wheel[2 * CYC_NAME_MAX + 4], job[2 * CYC_NAME_MAX + 4];
   if (PLG_CsvField(c->wheel, wheel, sizeof wheel) < 0 || PLG_CsvField(c->job, job, sizeof job) < 0)
     return -1;
-  put(&o, "%lu,%s,%s,%.3f,%.3f,%lu", c->cycle, wheel, job, c->start_time, c->end_time, c->passes);
+  TXB_Put(&o, "%lu,%s,%s,%.3f,%.3f,%lu", c->cycle, wheel, job, c->start_time, c->end_time, c->passes);
   num(&o, c->v_prime_mm3_mm, 3);
   num(&o, c->volume_mm3, 1);
   num(&o, c->u_ref_j_mm3, 4);
@@ -170,16 +153,16 @@ long PLG_FormatCycle(const CYC_Record *c, char *buf, size_t size)
   num(&o, c->final_ratio, 4);
   num(&o, c->g_ratio, 2);
   num(&o, c->wear_um, 3);
-  put(&o, ",%s,%s,", CYC_TriggerName(c->started_by), CYC_TriggerName(c->ended_by));
+  TXB_Put(&o, ",%s,%s,", CYC_TriggerName(c->started_by), CYC_TriggerName(c->ended_by));
   if (c->forecast_made)
-    put(&o, "%lu", c->forecast_pass);
+    TXB_Put(&o, "%lu", c->forecast_pass);
   num(&o, c->forecast_made ? c->forecast_v_prime_mm3_mm : NAN, 3);
-  put(&o, ",%s,", c->forecast_right < 0 ? "" : c->forecast_right ? "yes" : "no");
+  TXB_Put(&o, ",%s,", c->forecast_right < 0 ? "" : c->forecast_right ? "yes" : "no");
   if (c->pass_at_limit)
-    put(&o, "%lu", c->pass_at_limit);
+    TXB_Put(&o, "%lu", c->pass_at_limit);
   num(&o, c->v_prime_at_limit, 3);
-  put(&o, "\n");
-  return o.bad ? -1 : (long)o.used;
+  TXB_Put(&o, "\n");
+  return TXB_Done(&o);
 }
 
 int PLG_SplitCsv(char *line, char **field, int max)
