@@ -13,7 +13,8 @@ import unittest
 import livetest as L
 
 SPEED = 8.0
-RUN_SIM_S = 150.0       # simulated seconds: five parts of short.ini, about 19 s of real time
+RUN_SIM_S = 300.0       # simulated seconds: ten parts of short.ini, about 38 s of real time; long
+                        # enough that 20 passes stay densely sampled on a loaded machine
 MATCH_S = 0.25          # a start within 0.25 s is the same pass (passes are 2.9 s apart)
 
 
