@@ -11,10 +11,14 @@
 #include <sysexits.h>
 #include <time.h>
 #include <unistd.h>
+#include <poll.h>
+#include <sys/stat.h>
 
 #include "conf.h"
+#include "control.h"
 #include "monitor.h"
 #include "recording.h"
+#include "statusjson.h"
 
 #define MAX_FILES 256
 #define MAX_SETS 64
@@ -22,7 +26,8 @@
 
 static const char usage_text[] =
     "usage: gritline replay RECORDING... [--config FILE] [--set SECTION.KEY=VALUE]...\n"
-    "                       [--speed N|max] [--out DIR] [--skip-bad] [--compare FILE2]\n"
+    "                       [--speed N|max] [--socket PATH] [--out DIR] [--skip-bad]\n"
+    "                       [--compare FILE2]\n"
     "\n"
     "Feeds recordings (samples.csv) through the daemon's own analysis and writes\n"
     "passes.csv, events.csv and dress_cycles.csv under DIR/<machine>/<date>_<shift>/,\n"
@@ -35,7 +40,9 @@ static const char usage_text[] =
     "  --set S.K=V        override one key, e.g. --set wheel.dull_limit=1.2 (wheel and job\n"
     "                     mean the active ones); repeatable; for what-if questions\n"
     "  --speed N|max      max (default): as fast as the processor allows; N: N times real\n"
-    "                     time, to watch it live\n"
+    "                     time, to watch it live with gritline status --socket PATH\n"
+    "  --socket PATH      serve the control socket while replaying (default with --speed N:\n"
+    "                     DIR/replay.sock; none at max speed)\n"
     "  --out DIR          where the logs go (default ./replay)\n"
     "  --skip-bad         skip malformed lines (counted and reported) instead of stopping\n"
     "  --compare FILE2    also replay under the configuration FILE2 (with the same --set\n"
@@ -67,6 +74,9 @@ typedef struct replay_run {
   unsigned long events;
   int io_failed;
   MON_Monitor *mon;
+  const CNF_Config *cfg;   /* for the status of a paced replay */
+  double now;              /* time of the latest sample */
+  unsigned long samples, failed;
 } replay_run;
 
 typedef struct replay_args {
@@ -79,6 +89,7 @@ typedef struct replay_args {
   const char *out;
   int skip_bad;
   const char *compare;
+  const char *socket; /* control socket while replaying, NULL = none */
 } replay_args;
 
 static void on_pass(void *ctx, const SEG_Pass *p, const CYC_PassInfo *x)
@@ -125,6 +136,7 @@ static int parse_args(int argc, char **argv, replay_args *a)
       {"config", required_argument, NULL, 'c'}, {"set", required_argument, NULL, 's'},
       {"speed", required_argument, NULL, 'S'},  {"out", required_argument, NULL, 'o'},
       {"skip-bad", no_argument, NULL, 'k'},     {"compare", required_argument, NULL, 'C'},
+      {"socket", required_argument, NULL, 'K'},
       {"help", no_argument, NULL, 'h'},         {NULL, 0, NULL, 0},
   };
   memset(a, 0, sizeof *a);
@@ -138,6 +150,7 @@ static int parse_args(int argc, char **argv, replay_args *a)
     case 'o': a->out = optarg; break;
     case 'k': a->skip_bad = 1; break;
     case 'C': a->compare = optarg; break;
+    case 'K': a->socket = optarg; break;
     case 's':
       if (a->n_sets == MAX_SETS)
         return usage("--set: at most %s times", "64");
@@ -229,21 +242,52 @@ static int make_config(const replay_args *a, const char *file, const REC_Meta *m
   return 0;
 }
 
-static void pace(double speed, double t, double *t0_data, double *t0_wall)
+static double mono(void)
 {
   struct timespec now;
   clock_gettime(CLOCK_MONOTONIC, &now);
-  double wall = now.tv_sec + now.tv_nsec * 1e-9;
+  return now.tv_sec + now.tv_nsec * 1e-9;
+}
+
+static long replay_status(void *ctx, char *buf, size_t size)
+{
+  replay_run *r = ctx;
+  STJ_Link link = {1, r->now, r->samples, r->failed, "", "replay"};
+  return STJ_Format(r->cfg, r->mon, &link, buf, size);
+}
+
+static int replay_dress(void *ctx, const char *trigger, const char *note, char *why, size_t whylen)
+{
+  (void)ctx;
+  (void)trigger;
+  (void)note;
+  snprintf(why, whylen, "a replay follows the recording's own dress marks");
+  return -1;
+}
+
+/* Waits until sample time t is due at `speed` times real time, answering
+ * the control socket meanwhile. */
+static void pace(double speed, double t, double *t0_data, double *t0_wall, CTL_Server *ctl)
+{
+  double wall = mono();
   if (isnan(*t0_data)) {
     *t0_data = t;
     *t0_wall = wall;
     return;
   }
   double due = *t0_wall + (t - *t0_data) / speed;
-  if (due > wall) {
-    double d = due - wall;
-    struct timespec ts = {(time_t)d, (long)((d - floor(d)) * 1e9)};
-    nanosleep(&ts, NULL);
+  while ((wall = mono()) < due) {
+    struct pollfd fds[1 + CTL_MAX_CLIENTS];
+    int n = CTL_PollFds(ctl, fds, 1 + CTL_MAX_CLIENTS);
+    int ms = (int)ceil((due - wall) * 1000.0);
+    if (n == 0) {
+      double d = due - wall;
+      struct timespec ts = {(time_t)d, (long)((d - floor(d)) * 1e9)};
+      nanosleep(&ts, NULL);
+      return;
+    }
+    if (poll(fds, (nfds_t)n, ms) > 0)
+      CTL_Handle(ctl, fds, n, mono());
   }
 }
 
@@ -261,6 +305,17 @@ static int run(const replay_args *a, const CNF_Config *cfg, const char *out, rep
   int rc = EX_OK, tty = isatty(STDERR_FILENO);
   unsigned long skipped = 0, samples = 0;
   double t0_data = NAN, t0_wall = NAN;
+  r->cfg = cfg;
+  static CTL_Server ctl;
+  ctl.fd = -1;
+  if (a->socket) {
+    CTL_Handler h = {r, replay_status, replay_dress};
+    if (CTL_Open(&ctl, a->socket, 0660, &h, err, sizeof err) != 0) {
+      fprintf(stderr, "gritline replay: --socket: %s\n", err);
+      MON_Destroy(r->mon);
+      return EX_CANTCREAT;
+    }
+  }
   for (int i = 0; i < a->n_files && rc == EX_OK; i++) {
     REC_Reader rd;
     if (REC_Open(&rd, a->files[i], err, sizeof err) != 0) {
@@ -273,7 +328,11 @@ static int run(const replay_args *a, const CNF_Config *cfg, const char *out, rep
     while ((got = REC_Next(&rd, &it, err, sizeof err)) == 1) {
       if (it.kind == REC_ITEM_SAMPLE) {
         if (a->speed > 0.0)
-          pace(a->speed, it.sample.time, &t0_data, &t0_wall);
+          pace(a->speed, it.sample.time, &t0_data, &t0_wall, &ctl);
+        r->now = it.sample.time;
+        r->samples++;
+        if (SMP_IsEmpty(&it.sample))
+          r->failed++;
         if (MON_Feed(r->mon, &it.sample) != 0 && r->io_failed) {
           rc = EX_CANTCREAT;
           break;
@@ -304,6 +363,7 @@ static int run(const replay_args *a, const CNF_Config *cfg, const char *out, rep
     fputc('\n', stderr);
   if (skipped)
     fprintf(stderr, "gritline replay: %lu malformed lines skipped\n", skipped);
+  CTL_Close(&ctl);
   MON_Destroy(r->mon);
   r->mon = NULL;
   if (rc == EX_OK && r->io_failed)
@@ -362,6 +422,14 @@ int RPL_Main(int argc, char **argv)
   static CNF_Config cfg;
   if ((rc = make_config(&a, a.config, &meta, &cfg)) != 0)
     return rc;
+  static char sock[1024];
+  if (!a.socket && a.speed > 0.0) {
+    snprintf(sock, sizeof sock, "%s/replay.sock", a.out);
+    char mk[1100];
+    snprintf(mk, sizeof mk, "%s", a.out);
+    mkdir(mk, 0755); /* the socket's folder; the logs go below it anyway */
+    a.socket = sock;
+  }
   static replay_run first, second;
   memset(&first, 0, sizeof first);
   rc = run(&a, &cfg, a.out, &first);

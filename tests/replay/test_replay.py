@@ -5,7 +5,9 @@ import os
 import shutil
 import subprocess
 import sys
+import json
 import tempfile
+import time
 import unittest
 
 GRITLINE = sys.argv.pop(1)
@@ -145,6 +147,37 @@ class Replay(unittest.TestCase):
         r = replay(self.rec, "--out", self.out("cmp"), "--compare", cfg)
         self.assertEqual(r.returncode, 0, r.stderr)
         self.assertRegex(r.stdout, r"dulling: pass \d+ under the recording's metadata, pass \d+ under .*low.conf \(-\d+ passes\)")
+
+    def test_paced_replay_is_watched_with_status(self):
+        short = self.out("short.csv")
+        gen(short, "--passes", "30")  # 93 s of data: about 4.7 s at 20x
+        out = self.out("paced")
+        p = subprocess.Popen([GRITLINE, "replay", short, "--out", out, "--speed", "20"],
+                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+        try:
+            sock = os.path.join(out, "replay.sock")
+            deadline = time.monotonic() + 10
+            status = None
+            while time.monotonic() < deadline:
+                r = subprocess.run([GRITLINE, "status", "--socket", sock, "--json"], capture_output=True,
+                                   text=True, timeout=10)
+                if r.returncode == 0:
+                    status = json.loads(r.stdout)
+                    if status["passes_shift"] >= 3:
+                        break
+                time.sleep(0.2)
+            self.assertIsNotNone(status, "no status from the paced replay")
+            self.assertEqual(status["mode"], "replay")
+            self.assertEqual(status["machine"], "testbench")
+            self.assertGreaterEqual(status["passes_shift"], 3)
+            # A paced replay takes its time: it is still running, not done at once.
+            self.assertIsNone(p.poll())
+            r = subprocess.run([GRITLINE, "dress", "--socket", sock], capture_output=True, text=True, timeout=10)
+            self.assertEqual(r.returncode, 65)  # refused: a replay follows the recording's own marks
+        finally:
+            stdout, stderr = p.communicate(timeout=30)
+        self.assertEqual(p.returncode, 0, stderr)
+        self.assertFalse(os.path.exists(os.path.join(out, "replay.sock")))
 
     def test_errors(self):
         r = replay(self.rec, "--set", "wheel.dull_limit=abc", "--out", self.out("e1"))
