@@ -319,6 +319,9 @@ static void poll_once(daemon_state *d)
     d->started = 1;
   }
   MON_Feed(d->mon, &s);
+  char repaired[1200];
+  if (MON_Repairs(d->mon, repaired, sizeof repaired) > 0)
+    LOG_Message(LOG_WARNING, "%s", repaired);
   if (st == MBC_ALL_READ || st == MBC_PARTLY_READ)
     writeback_sync(d);
 }

@@ -146,12 +146,14 @@ static void logging_back(MON_Monitor *m, double t)
 {
   if (!m->log_failed)
     return;
-  m->log_failed = 0;
   char text[160];
   snprintf(text, sizeof text, "%lu samples not recorded since %.3f", m->lost_lines, m->lost_from);
   long n = REC_FormatMark(t, "gap", text, m->line, sizeof m->line);
-  if (n > 0 && LGF_IsOpen(&m->samples))
-    LGF_Append(&m->samples, m->line, (size_t)n);
+  /* Writing works again only when the mark got out: clearing on a disk still
+   * full would raise the condition again at the next line, sample after sample. */
+  if (n <= 0 || !LGF_IsOpen(&m->samples) || LGF_Append(&m->samples, m->line, (size_t)n) != 0)
+    return;
+  m->log_failed = 0;
   m->lost_lines = 0;
   CND_Event e;
   if (CND_SetExternal(&m->cnd, CND_LOGGING_FAILED, 0, t, text, &e) == 1)
@@ -623,6 +625,25 @@ void MON_Destroy(MON_Monitor *m)
   save_state(m);
   close_files(m);
   free(m);
+}
+
+int MON_Repairs(MON_Monitor *m, char *buf, size_t size)
+{
+  LGF_File *files[] = {&m->samples, &m->passes, &m->events, &m->cycles};
+  int n = 0;
+  size_t used = 0;
+  buf[0] = '\0';
+  for (size_t i = 0; i < sizeof files / sizeof files[0]; i++) {
+    if (files[i]->trimmed <= 0)
+      continue;
+    int w = snprintf(buf + used, size - used, "%s%s: incomplete last line (%lld bytes) cut away: the writer stopped "
+                     "mid-line", n ? "; " : "", files[i]->path, files[i]->trimmed);
+    if (w > 0)
+      used = used + (size_t)w < size ? used + (size_t)w : size - 1;
+    files[i]->trimmed = 0;
+    n++;
+  }
+  return n;
 }
 
 void MON_GetStatus(const MON_Monitor *m, MON_Status *out) { *out = m->status; }

@@ -68,6 +68,9 @@ typedef struct MON_Status {
   SMP_Sample last_sample;      /* latest sample as analysed */
 } MON_Status;
 
+/* The incomplete last lines (a crash mid-write) cut away from the files opened
+ * since the previous call, as one line into buf; returns how many files, 0 = none. */
+int MON_Repairs(MON_Monitor *m, char *buf, size_t size);
 void MON_GetStatus(const MON_Monitor *m, MON_Status *out);
 /* The condition model (read only), e.g. for the active-condition list. */
 const CND_State *MON_Conditions(const MON_Monitor *m);

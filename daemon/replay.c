@@ -89,6 +89,8 @@ typedef struct replay_args {
   const char *out;
   int skip_bad;
   const char *compare;
+  REC_Reader first;   /* a lone recording stays open from its metadata to its end: it may be a pipe */
+  int first_open;
   const char *socket; /* control socket while replaying, NULL = none */
 } replay_args;
 
@@ -199,6 +201,16 @@ static int order_files(replay_args *a, REC_Meta *first)
 {
   opened o[MAX_FILES];
   char err[700];
+  if (a->n_files == 1) {
+    /* Nothing to order: opened once, so a FIFO or /dev/stdin is read from its start. */
+    if (REC_Open(&a->first, a->files[0], err, sizeof err) != 0) {
+      fprintf(stderr, "gritline replay: %s\n", err);
+      return errno == ENOENT || errno == EACCES ? EX_NOINPUT : EX_DATAERR;
+    }
+    a->first_open = 1;
+    *first = a->first.meta;
+    return 0;
+  }
   for (int i = 0; i < a->n_files; i++) {
     REC_Reader r;
     if (REC_Open(&r, a->files[i], err, sizeof err) != 0) {
@@ -292,7 +304,7 @@ static void pace(double speed, double t, double *t0_data, double *t0_wall, CTL_S
 }
 
 /* One run over every file; returns a sysexits code. */
-static int run(const replay_args *a, const CNF_Config *cfg, const char *out, replay_run *r)
+static int run(replay_args *a, const CNF_Config *cfg, const char *out, replay_run *r)
 {
   char err[800];
   MON_Options mo = {out, 0};
@@ -318,7 +330,10 @@ static int run(const replay_args *a, const CNF_Config *cfg, const char *out, rep
   }
   for (int i = 0; i < a->n_files && rc == EX_OK; i++) {
     REC_Reader rd;
-    if (REC_Open(&rd, a->files[i], err, sizeof err) != 0) {
+    if (i == 0 && a->first_open) {
+      rd = a->first;
+      a->first_open = 0;
+    } else if (REC_Open(&rd, a->files[i], err, sizeof err) != 0) {
       fprintf(stderr, "gritline replay: %s\n", err);
       rc = EX_DATAERR;
       break;

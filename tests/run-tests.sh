@@ -2,6 +2,7 @@
 # run-tests.sh: installs what is missing, builds gritline and runs the whole test suite.
 #   tests/run-tests.sh              warning-free build (--werror), every test
 #   tests/run-tests.sh --sanitize   the same under AddressSanitizer and UBSan
+#   tests/run-tests.sh --soak       only the soak suite (about 12 minutes), on the plain build
 # Build trees live in tests/build and tests/build-asan; the log of the run is
 # in <build>/meson-logs/testlog.txt.
 set -eu
@@ -21,4 +22,9 @@ fi
 meson compile -C "$build"
 export ASAN_OPTIONS="${ASAN_OPTIONS:-detect_leaks=1:abort_on_error=1}"
 export UBSAN_OPTIONS="${UBSAN_OPTIONS:-print_stacktrace=1:halt_on_error=1}"
-meson test -C "$build" --print-errorlogs --num-processes 2
+if [ "${1:-}" = "--soak" ]; then
+  # Its own log, so that the normal run's testlog.txt stays what .ci/run counts.
+  meson test -C "$build" --print-errorlogs --suite soak --logbase soaklog
+else
+  meson test -C "$build" --print-errorlogs --num-processes 2 --no-suite soak
+fi

@@ -157,8 +157,9 @@ class Sim(Proc):
 class Daemon(Proc):
     """gritlined with a configuration written by the test, its own data folder and control socket."""
 
-    def __init__(self, case, conf_path, data_dir, socket_path, args=(), env=None):
-        argv = [GRITLINED, "-c", conf_path, "--data-dir", data_dir, "--socket", socket_path, *args]
+    def __init__(self, case, conf_path, data_dir, socket_path, args=(), env=None, wrapper=()):
+        # wrapper: a command the daemon runs under (valgrind ...); it must keep the daemon's pid.
+        argv = [*wrapper, GRITLINED, "-c", conf_path, "--data-dir", data_dir, "--socket", socket_path, *args]
         e = {"TZ": "UTC"}
         e.update(env or {})
         super().__init__(case, "gritlined", argv, env=e)
@@ -213,12 +214,12 @@ class LiveCase(unittest.TestCase):
             epoch = round(time.time() + 1.0, 3)
         return Sim(self, scenario_path, speed, epoch, port, args)
 
-    def start_daemon(self, conf_text, name="d", args=(), env=None, data_dir=None):
+    def start_daemon(self, conf_text, name="d", args=(), env=None, data_dir=None, wrapper=()):
         conf = self.path(name + ".conf")
         write_file(conf, conf_text)
         data_dir = data_dir or self.path(name + "-data")
         os.makedirs(data_dir, exist_ok=True)
-        return Daemon(self, conf, data_dir, self.path(name + ".sock"), args, env)
+        return Daemon(self, conf, data_dir, self.path(name + ".sock"), args, env, wrapper)
 
     def stop_daemon(self, d, sig=signal.SIGTERM):
         rc = d.stop(sig, timeout=15)
