@@ -3,6 +3,7 @@
 
 #include "textbuf.h"
 
+#include <dlfcn.h>
 #include <errno.h>
 #include <math.h>
 #include <mosquitto.h>
@@ -14,6 +15,81 @@
 #include <time.h>
 
 #include "statusjson.h"
+
+/* ---- the library, loaded on demand ----------------------------------------- */
+
+/* libmosquitto, and the TLS libraries it brings along, are loaded only when MQTT
+ * is enabled: a daemon without MQTT keeps its resident memory small (see
+ * docs/reliability.md, the soak figures). Loaded once, never unloaded: its
+ * network thread may outlive any one client. */
+static struct mosq_api {
+  void *handle;
+  __typeof__(mosquitto_lib_init) *lib_init;
+  __typeof__(mosquitto_lib_cleanup) *lib_cleanup;
+  __typeof__(mosquitto_new) *new;
+  __typeof__(mosquitto_destroy) *destroy;
+  __typeof__(mosquitto_int_option) *int_option;
+  __typeof__(mosquitto_max_inflight_messages_set) *max_inflight_messages_set;
+  __typeof__(mosquitto_connect_callback_set) *connect_callback_set;
+  __typeof__(mosquitto_disconnect_callback_set) *disconnect_callback_set;
+  __typeof__(mosquitto_publish_callback_set) *publish_callback_set;
+  __typeof__(mosquitto_reconnect_delay_set) *reconnect_delay_set;
+  __typeof__(mosquitto_will_set) *will_set;
+  __typeof__(mosquitto_username_pw_set) *username_pw_set;
+  __typeof__(mosquitto_strerror) *strerror;
+  __typeof__(mosquitto_loop_start) *loop_start;
+  __typeof__(mosquitto_loop_stop) *loop_stop;
+  __typeof__(mosquitto_connect_async) *connect_async;
+  __typeof__(mosquitto_disconnect) *disconnect;
+  __typeof__(mosquitto_publish) *publish;
+  __typeof__(mosquitto_connack_string) *connack_string;
+} api;
+
+static int load_api(char *err, size_t errlen)
+{
+  if (api.handle)
+    return 0;
+  void *h = dlopen("libmosquitto.so.1", RTLD_NOW | RTLD_LOCAL);
+  if (!h) {
+    snprintf(err, errlen, "[mqtt] cannot load libmosquitto.so.1: %s", dlerror());
+    return -1;
+  }
+  const struct {
+    const char *name;
+    void *slot; /* address of the function pointer to fill */
+  } syms[] = {
+      {"mosquitto_lib_init", (void *)&api.lib_init},
+      {"mosquitto_lib_cleanup", (void *)&api.lib_cleanup},
+      {"mosquitto_new", (void *)&api.new},
+      {"mosquitto_destroy", (void *)&api.destroy},
+      {"mosquitto_int_option", (void *)&api.int_option},
+      {"mosquitto_max_inflight_messages_set", (void *)&api.max_inflight_messages_set},
+      {"mosquitto_connect_callback_set", (void *)&api.connect_callback_set},
+      {"mosquitto_disconnect_callback_set", (void *)&api.disconnect_callback_set},
+      {"mosquitto_publish_callback_set", (void *)&api.publish_callback_set},
+      {"mosquitto_reconnect_delay_set", (void *)&api.reconnect_delay_set},
+      {"mosquitto_will_set", (void *)&api.will_set},
+      {"mosquitto_username_pw_set", (void *)&api.username_pw_set},
+      {"mosquitto_strerror", (void *)&api.strerror},
+      {"mosquitto_loop_start", (void *)&api.loop_start},
+      {"mosquitto_loop_stop", (void *)&api.loop_stop},
+      {"mosquitto_connect_async", (void *)&api.connect_async},
+      {"mosquitto_disconnect", (void *)&api.disconnect},
+      {"mosquitto_publish", (void *)&api.publish},
+      {"mosquitto_connack_string", (void *)&api.connack_string},
+  };
+  for (size_t i = 0; i < sizeof syms / sizeof syms[0]; i++) {
+    void *f = dlsym(h, syms[i].name);
+    if (!f) {
+      snprintf(err, errlen, "[mqtt] libmosquitto.so.1 lacks %s", syms[i].name);
+      dlclose(h);
+      return -1;
+    }
+    memcpy(syms[i].slot, &f, sizeof f); /* POSIX: a data pointer from dlsym holds a function */
+  }
+  api.handle = h;
+  return 0;
+}
 
 #define ACK_RING 256 /* confirmations the network thread can hold for the poll loop */
 
@@ -340,29 +416,33 @@ MQT_Client *MQT_Create(const MQT_Config *cfg, const char *machine, char *err, si
     MQT_Destroy(c, 0);
     return NULL;
   }
-  mosquitto_lib_init();
+  if (load_api(err, errlen) != 0) {
+    MQT_Destroy(c, 0);
+    return NULL;
+  }
+  api.lib_init();
   /* A clean session: what the broker must not lose waits in our own queue. */
-  c->mosq = mosquitto_new(c->client_id, true, c);
+  c->mosq = api.new(c->client_id, true, c);
   if (!c->mosq) {
     snprintf(err, errlen, "[mqtt] cannot create the client: %s", strerror(errno));
     MQT_Destroy(c, 0);
     return NULL;
   }
-  mosquitto_int_option(c->mosq, MOSQ_OPT_PROTOCOL_VERSION, MQTT_PROTOCOL_V311);
-  mosquitto_max_inflight_messages_set(c->mosq, MQT_MAX_INFLIGHT);
-  mosquitto_connect_callback_set(c->mosq, on_connect);
-  mosquitto_disconnect_callback_set(c->mosq, on_disconnect);
-  mosquitto_publish_callback_set(c->mosq, on_publish);
-  mosquitto_reconnect_delay_set(c->mosq, cfg->reconnect_min_s, cfg->reconnect_max_s, true);
+  api.int_option(c->mosq, MOSQ_OPT_PROTOCOL_VERSION, MQTT_PROTOCOL_V311);
+  api.max_inflight_messages_set(c->mosq, MQT_MAX_INFLIGHT);
+  api.connect_callback_set(c->mosq, on_connect);
+  api.disconnect_callback_set(c->mosq, on_disconnect);
+  api.publish_callback_set(c->mosq, on_publish);
+  api.reconnect_delay_set(c->mosq, cfg->reconnect_min_s, cfg->reconnect_max_s, true);
   char will[MQT_PAYLOAD_MAX];
   long wn = MQT_FormatStatus(c->machine, 0, "connection lost", -1, NULL, NAN, will, sizeof will);
   snprintf(c->topic, sizeof c->topic, "%s/status", c->prefix);
-  int rc = wn < 0 ? MOSQ_ERR_INVAL : mosquitto_will_set(c->mosq, c->topic, (int)wn, will, 1, true);
+  int rc = wn < 0 ? MOSQ_ERR_INVAL : api.will_set(c->mosq, c->topic, (int)wn, will, 1, true);
   if (rc == MOSQ_ERR_SUCCESS && cfg->username[0])
-    rc = mosquitto_username_pw_set(c->mosq, cfg->username, password[0] ? password : NULL);
+    rc = api.username_pw_set(c->mosq, cfg->username, password[0] ? password : NULL);
   memset(password, 0, sizeof password);
   if (rc != MOSQ_ERR_SUCCESS) {
-    snprintf(err, errlen, "[mqtt] %s", mosquitto_strerror(rc));
+    snprintf(err, errlen, "[mqtt] %s", api.strerror(rc));
     MQT_Destroy(c, 0);
     return NULL;
   }
@@ -371,17 +451,17 @@ MQT_Client *MQT_Create(const MQT_Config *cfg, const char *machine, char *err, si
    * the daemon, tests/plant/test_mqtt.py). The attempt itself runs here (a name
    * is resolved here too); when it fails the thread goes on trying with the
    * doubling delay, so a broker that is down is not an error. */
-  rc = mosquitto_loop_start(c->mosq);
+  rc = api.loop_start(c->mosq);
   if (rc != MOSQ_ERR_SUCCESS) {
-    snprintf(err, errlen, "[mqtt] cannot start the network thread: %s", mosquitto_strerror(rc));
+    snprintf(err, errlen, "[mqtt] cannot start the network thread: %s", api.strerror(rc));
     MQT_Destroy(c, 0);
     return NULL;
   }
   c->thread_started = 1;
-  rc = mosquitto_connect_async(c->mosq, cfg->host, (int)cfg->port, (int)cfg->keepalive_s);
+  rc = api.connect_async(c->mosq, cfg->host, (int)cfg->port, (int)cfg->keepalive_s);
   if (rc != MOSQ_ERR_SUCCESS && rc != MOSQ_ERR_ERRNO && rc != MOSQ_ERR_EAI && rc != MOSQ_ERR_NO_CONN &&
       rc != MOSQ_ERR_CONN_REFUSED) {
-    snprintf(err, errlen, "[mqtt] cannot connect to %s:%u: %s", cfg->host, cfg->port, mosquitto_strerror(rc));
+    snprintf(err, errlen, "[mqtt] cannot connect to %s:%u: %s", cfg->host, cfg->port, api.strerror(rc));
     MQT_Destroy(c, 0);
     return NULL;
   }
@@ -436,7 +516,7 @@ static int take_news(MQT_Client *c, double now)
 static int send_one(MQT_Client *c, const char *topic, const char *payload, size_t len, int qos, int retain, double now)
 {
   int mid = 0;
-  int rc = mosquitto_publish(c->mosq, &mid, topic, (int)len, payload, qos, retain);
+  int rc = api.publish(c->mosq, &mid, topic, (int)len, payload, qos, retain);
   if (rc != MOSQ_ERR_SUCCESS)
     return -1;
   c->fly[c->n_fly++] = (inflight){mid, qos, now};
@@ -523,7 +603,7 @@ void MQT_GetCounters(const MQT_Client *c, MQT_Counters *out)
 
 const char *MQT_Prefix(const MQT_Client *c) { return c ? c->prefix : ""; }
 
-const char *MQT_ConnackText(int code) { return mosquitto_connack_string(code); }
+const char *MQT_ConnackText(int code) { return api.handle ? api.connack_string(code) : "?"; }
 
 void MQT_Destroy(MQT_Client *c, double linger_s)
 {
@@ -540,7 +620,7 @@ void MQT_Destroy(MQT_Client *c, double linger_s)
     if (take_news(c, mono()) && set_status(c, 0, "stopped", -1, NULL, wall()) == 0) {
       snprintf(c->topic, sizeof c->topic, "%s/status", c->prefix);
       int mid = 0;
-      if (mosquitto_publish(c->mosq, &mid, c->topic, (int)c->status_len, c->status, 1, true) == MOSQ_ERR_SUCCESS) {
+      if (api.publish(c->mosq, &mid, c->topic, (int)c->status_len, c->status, 1, true) == MOSQ_ERR_SUCCESS) {
         c->fly[0] = (inflight){mid, 1, mono()};
         c->n_fly = 1;
         while (mono() - t0 < linger_s) {
@@ -551,12 +631,12 @@ void MQT_Destroy(MQT_Client *c, double linger_s)
         }
       }
     }
-    mosquitto_disconnect(c->mosq); /* a clean end: the broker drops the will */
-    mosquitto_loop_stop(c->mosq, false);
+    api.disconnect(c->mosq); /* a clean end: the broker drops the will */
+    api.loop_stop(c->mosq, false);
   }
   if (c->mosq) {
-    mosquitto_destroy(c->mosq);
-    mosquitto_lib_cleanup();
+    api.destroy(c->mosq);
+    api.lib_cleanup();
   }
   MQT_QueueFree(&c->q);
   pthread_mutex_destroy(&c->lock);
