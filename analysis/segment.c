@@ -122,14 +122,21 @@ void SEG_Init(SEG_State *s, const SEG_Config *c, unsigned long first_number)
 double SEG_Baseline(const SEG_State *s) { return s->have_baseline ? s->baseline_w : NAN; }
 int SEG_InPass(const SEG_State *s) { return s->in_pass; }
 
+/* fmax(floor, v) for a floor that is never NAN, inline: fmax is a call into
+ * libm, and the thresholds are needed on every sample. */
+static inline double at_least(double floor, double v)
+{
+  return v > floor ? v : floor;
+}
+
 static double on_threshold(const SEG_State *s)
 {
-  return fmax(s->cfg.contact_on_w, s->cfg.noise_on * s->noise_w);
+  return at_least(s->cfg.contact_on_w, s->cfg.noise_on * s->noise_w);
 }
 
 static double off_threshold(const SEG_State *s)
 {
-  return fmax(s->cfg.contact_off_w, s->cfg.noise_off * s->noise_w);
+  return at_least(s->cfg.contact_off_w, s->cfg.noise_off * s->noise_w);
 }
 
 static int speed_changed(const SEG_State *s, const SMP_Sample *x)
@@ -138,6 +145,8 @@ static int speed_changed(const SEG_State *s, const SMP_Sample *x)
   return !isnan(rpm) && !isnan(s->baseline_rpm) &&
          fabs(rpm - s->baseline_rpm) > s->cfg.speed_change * fabs(s->baseline_rpm);
 }
+
+static void baseline_refit(SEG_State *s);
 
 static void baseline_seed(SEG_State *s, double t, double p, double rpm)
 {
@@ -148,6 +157,7 @@ static void baseline_seed(SEG_State *s, double t, double p, double rpm)
   s->bl_wt = s->bl_wtt = s->bl_wtp = 0.0;
   s->baseline_w = p;
   s->baseline_rpm = rpm;
+  baseline_refit(s);
 }
 
 /* Level and slope of the weighted line at bl_ref. The slope is shrunk toward
@@ -168,20 +178,54 @@ static void baseline_line(const SEG_State *s, double *level, double *slope)
   *level = mean_p - *slope * mean_u;
 }
 
+/* The line is kept with the sums (bl_level, bl_slope) and fitted again only
+ * when they or the noise change: every sample asks for it, and its divisions
+ * are a long chain of latency. */
+static void baseline_refit(SEG_State *s)
+{
+  baseline_line(s, &s->bl_level, &s->bl_slope);
+}
+
 static double baseline_at(const SEG_State *s, double t)
 {
-  double level, slope;
-  baseline_line(s, &level, &slope);
-  return level + slope * (t - s->bl_ref);
+  return s->bl_level + s->bl_slope * (t - s->bl_ref);
+}
+
+/* exp(x) and expm1(x) of the idle step x = -dt/tau. Both are needed for
+ * every idle sample (the decay of the sums, the weight of the noise
+ * estimate), and the two library calls, with the division, were a third of
+ * its cost. Samples come at the poll period with timestamps in microseconds
+ * (the recording's resolution), so the same dt recurs to the bit and is
+ * found in a small table: the values are the library's own. */
+static void step_decay(SEG_State *s, double dt, double *exp_x, double *expm1_x)
+{
+  double tau = s->cfg.baseline_tau_s;
+  if (s->step_memo_tau_s != tau) { /* first use, or a new tau (reconfigured) */
+    double x0 = -0.0 / tau;      /* every entry starts as dt = +0 */
+    SEG_StepMemo zero = {0, exp(x0), expm1(x0)};
+    for (unsigned i = 0; i < sizeof s->step_memo / sizeof s->step_memo[0]; i++)
+      s->step_memo[i] = zero;
+    s->step_memo_tau_s = tau;
+  }
+  uint64_t bits;
+  memcpy(&bits, &dt, sizeof bits);
+  SEG_StepMemo *m = &s->step_memo[(bits * 0x9E3779B97F4A7C15ull) >> (64 - SEG_STEP_MEMO_BITS)];
+  if (m->dt_bits != bits) {
+    double x = -dt / tau;
+    m->dt_bits = bits;
+    m->exp_x = exp(x);
+    m->expm1_x = expm1(x);
+  }
+  *exp_x = m->exp_x;
+  *expm1_x = m->expm1_x;
 }
 
 /* Adds an idle sample with exponential forgetting (time constant tau): the
  * sums are moved to the new reference time, decayed, and the sample added. */
-static void baseline_add(SEG_State *s, double t, double p)
+static void baseline_add(SEG_State *s, double t, double p, double decay)
 {
   double d = t - s->bl_ref;
-  if (d > 0.0) {
-    double decay = exp(-d / s->cfg.baseline_tau_s);
+  if (d > 0.0) { /* decay = exp(-d / s->cfg.baseline_tau_s), from step_decay */
     s->bl_wtt = (s->bl_wtt - 2.0 * d * s->bl_wt + d * d * s->bl_w) * decay;
     s->bl_wtp = (s->bl_wtp - d * s->bl_wp) * decay;
     s->bl_wt = (s->bl_wt - d * s->bl_w) * decay;
@@ -191,14 +235,40 @@ static void baseline_add(SEG_State *s, double t, double p)
   }
   s->bl_w += 1.0;
   s->bl_wp += p;
+  baseline_refit(s); /* noise_w, changed just before by follow_idle, is in it too */
   s->baseline_w = baseline_at(s, t);
+}
+
+/* An idle sample dev watts above the baseline line at its time, with the
+ * spindle speed unchanged: power well under the line (the stream began in
+ * contact, or the spindle slowed) re-seeds the line, else the sample adds to
+ * the fit and to the noise estimate. */
+static void follow_idle(SEG_State *s, const SMP_Sample *x, double dev)
+{
+  double p = x->spindle_power_w;
+  if (isnan(s->baseline_rpm))
+    s->baseline_rpm = x->spindle_speed_rpm;
+  double on = on_threshold(s);
+  if (dev < -on) {
+    baseline_seed(s, x->time, p, x->spindle_speed_rpm);
+    return;
+  }
+  /* One step for both uses: exp for the decay of the sums, expm1 for the
+   * weight of this sample in the noise estimate. */
+  double decay, em1;
+  step_decay(s, x->time - s->bl_ref, &decay, &em1);
+  if (fabs(dev) < on && s->bl_w >= 3.0) {
+    double wn = -em1; /* -expm1(-(x->time - s->bl_ref) / s->cfg.baseline_tau_s) */
+    double var = s->noise_w * s->noise_w;
+    var += wn * (dev * dev - var);
+    s->noise_w = sqrt(var);
+  }
+  baseline_add(s, x->time, p, decay);
 }
 
 /* Follows the idle power while the wheel is out of contact. Idle power drifts
  * with temperature (followed by the fit) and depends on spindle speed: a change
- * of speed re-seeds the fit and holds off contact while the spindle settles.
- * Power well under the line (the stream began in contact, or the spindle
- * slowed) re-seeds it too. */
+ * of speed re-seeds the fit and holds off contact while the spindle settles. */
 static void track_baseline(SEG_State *s, const SMP_Sample *x)
 {
   double p = x->spindle_power_w, rpm = x->spindle_speed_rpm;
@@ -211,20 +281,7 @@ static void track_baseline(SEG_State *s, const SMP_Sample *x)
     s->settle_until = x->time + fmin(2.0, s->cfg.baseline_tau_s);
     return;
   }
-  if (isnan(s->baseline_rpm))
-    s->baseline_rpm = rpm;
-  double dev = p - baseline_at(s, x->time);
-  if (dev < -on_threshold(s)) {
-    baseline_seed(s, x->time, p, rpm);
-    return;
-  }
-  if (fabs(dev) < on_threshold(s) && s->bl_w >= 3.0) {
-    double wn = -expm1(-(x->time - s->bl_ref) / s->cfg.baseline_tau_s);
-    double var = s->noise_w * s->noise_w;
-    var += wn * (dev * dev - var);
-    s->noise_w = sqrt(var);
-  }
-  baseline_add(s, x->time, p);
+  follow_idle(s, x, p - baseline_at(s, x->time));
 }
 
 /* Idle power under the pass: the line frozen at its start, extrapolated. */
@@ -237,7 +294,8 @@ static void start_pass(SEG_State *s, const SMP_Sample *x, double net, int after_
 {
   s->in_pass = 1;
   s->below = 0;
-  baseline_line(s, &s->pass_bl_level, &s->pass_bl_slope);
+  s->pass_bl_level = s->bl_level;
+  s->pass_bl_slope = s->bl_slope;
   s->pass_bl_ref = s->bl_ref;
   s->energy_j = 0.0;
   s->pend_energy_j = 0.0;
@@ -488,6 +546,8 @@ int SEG_Feed(SEG_State *s, const SMP_Sample *x, SEG_Pass *out)
     if (contact && s->have_baseline) {
       start_pass(s, x, net, !s->have_last);
       add_contact(s, x, net);
+    } else if (!contact && s->have_baseline) {
+      follow_idle(s, x, net); /* what track_baseline does, without computing net again */
     } else if (!contact) {
       track_baseline(s, x);
     }

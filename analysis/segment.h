@@ -2,6 +2,8 @@
 #ifndef GRITLINE_SEGMENT_H
 #define GRITLINE_SEGMENT_H
 
+#include <stdint.h>
+
 #include "grind.h"
 #include "sample.h"
 
@@ -89,6 +91,14 @@ typedef struct SEG_EdgeSample {
   double p; /* W, net */
 } SEG_EdgeSample;
 
+/* exp and expm1 of one idle step, remembered (see segment.c). */
+#define SEG_STEP_MEMO_BITS 10
+typedef struct SEG_StepMemo {
+  uint64_t dt_bits;          /* the step dt (s) between idle samples, as the bits of the double */
+  double exp_x;              /* exp(-dt / baseline_tau_s) */
+  double expm1_x;            /* expm1(-dt / baseline_tau_s) */
+} SEG_StepMemo;
+
 /* State of the segmentation; a plain struct so the caller owns the memory. */
 typedef struct SEG_State {
   SEG_Config cfg;
@@ -98,6 +108,7 @@ typedef struct SEG_State {
   int have_baseline;       /* at least one idle sample */
   double bl_ref;           /* s, time the sums are centred on (the latest idle sample) */
   double bl_w, bl_wt, bl_wp, bl_wtt, bl_wtp; /* weighted sums of 1, u, p, u^2, u*p */
+  double bl_level, bl_slope; /* W and W/s at bl_ref: the line of the sums, fitted when they change */
   double baseline_w;       /* idle power predicted at the latest sample */
   double noise_w;          /* idle noise standard deviation estimate */
   double baseline_rpm;     /* spindle speed the baseline belongs to */
@@ -137,6 +148,8 @@ typedef struct SEG_State {
   double prev_infeed_mm;
   int have_prev_dress;
   double prev_dress;
+  double step_memo_tau_s;  /* the baseline_tau_s of step_memo (0 = none yet) */
+  SEG_StepMemo step_memo[1u << SEG_STEP_MEMO_BITS]; /* by the bits of dt */
 } SEG_State;
 
 void SEG_Init(SEG_State *s, const SEG_Config *c, unsigned long first_number);

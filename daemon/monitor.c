@@ -357,17 +357,26 @@ static void stale_init(MON_Monitor *m)
   m->stale_active = 0;
 }
 
-static void check_stale(MON_Monitor *m, const SMP_Sample *s)
+/* The channels that hold a value (bit per channel, in the order of
+ * SMP_Sample); no bit at all is a failed poll. */
+static unsigned channels_read(const SMP_Sample *s)
 {
   const double *v = &s->spindle_power_w;
-  uint64_t raw[SMP_CHANNELS];
   unsigned mask = 0;
-  for (int i = 0; i < SMP_CHANNELS; i++) {
-    raw[i] = 0;
-    if (!isnan(v[i])) {
-      memcpy(&raw[i], &v[i], sizeof raw[i]);
+  for (int i = 0; i < SMP_CHANNELS; i++)
+    if (!isnan(v[i]))
       mask |= 1u << i;
-    }
+  return mask;
+}
+
+static void check_stale(MON_Monitor *m, const SMP_Sample *s, unsigned mask)
+{
+  /* The raw bits of the channels the tracker watches (the others it skips). */
+  const double *v = &s->spindle_power_w;
+  uint64_t raw[SMP_CHANNELS];
+  for (unsigned left = mask & m->stale.watched; left; left &= left - 1u) {
+    unsigned i = (unsigned)__builtin_ctz(left);
+    memcpy(&raw[i], &v[i], sizeof raw[i]);
   }
   STL_Update(&m->stale, mask, raw, s->time);
   unsigned now = STL_Stale(&m->stale, s->time);
@@ -520,42 +529,49 @@ int MON_Feed(MON_Monitor *m, const SMP_Sample *in)
   if (isnan(in->time))
     return 0;
   ensure_shift(m, in->time);
-  SMP_Sample s = *in;
+  const SMP_Sample *x = in; /* what is analysed */
+  SMP_Sample parsed;
   int rc = 0;
   if (m->opt.record) {
     /* What gets analysed is exactly what a replay will read back. */
+    parsed = *in;
+    x = &parsed;
     long n = REC_FormatSample(in, m->line, sizeof m->line);
     if (n > 0) {
       int col;
-      REC_ParseSample(m->line, (size_t)n - 1, &s, &col);
+      REC_ParseSample(m->line, (size_t)n - 1, &parsed, &col);
       if (m->log_failed && LGF_IsOpen(&m->samples)) {
         char keep[REC_LINE_MAX];
         memcpy(keep, m->line, (size_t)n);
-        logging_back(m, s.time); /* writes the gap mark first, if the disk takes it */
+        logging_back(m, x->time); /* writes the gap mark first, if the disk takes it */
         memcpy(m->line, keep, (size_t)n);
       }
-      if (write_line(m, &m->samples, m->line, n, s.time) != 0)
+      if (write_line(m, &m->samples, m->line, n, x->time) != 0)
         rc = -1;
     }
   }
-  int failed = SMP_IsEmpty(&s);
+  unsigned mask = channels_read(x);
+  int failed = mask == 0; /* SMP_IsEmpty, from the mask needed anyway */
   m->status.samples++;
   if (failed)
     m->status.failed_polls++;
-  m->last_time = s.time;
-  m->status.last_sample_time = s.time;
-  m->status.last_sample = s;
-  check_comm(m, &s, failed);
-  check_stale(m, &s);
+  m->last_time = x->time;
+  m->status.last_sample_time = x->time;
+  check_comm(m, x, failed);
+  check_stale(m, x, mask);
   CND_Event e;
-  if (!failed && CND_Sample(&m->cnd, s.time, s.spindle_speed_rpm, s.wheel_diameter_mm, &e) == 1)
+  if (!failed && CND_Sample(&m->cnd, x->time, x->spindle_speed_rpm, x->wheel_diameter_mm, &e) == 1)
     emit_cnd(m, &e, 1);
   SEG_Pass p;
-  if (SEG_Feed(&m->seg, &s, &p))
+  if (SEG_Feed(&m->seg, x, &p))
     take_pass(m, &p);
   m->status.comm_lost = m->comm_lost;
   m->status.in_pass = SEG_InPass(&m->seg);
   m->status.baseline_w = SEG_Baseline(&m->seg);
+  /* Copied last: read back at once, a sample the caller has just stored
+   * would stall the copy (its stores not yet in the cache); nothing reads
+   * the status during MON_Feed. */
+  m->status.last_sample = *x;
   return rc;
 }
 

@@ -5,6 +5,7 @@
 #include <stdarg.h>
 #include <fcntl.h>
 #include <math.h>
+#include <stddef.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -199,7 +200,194 @@ slow:;
   return 0;
 }
 
-int REC_ParseSample(const char *line, size_t len, SMP_Sample *s, int *bad_column)
+/* ---- the fast path of reading a sample row ------------------------------
+ *
+ * A replay spends much of its time here: a shift at 100 Hz is 2.9 million
+ * rows of about 60 bytes. Rows as gritline writes them ([-]digits[.digits],
+ * at most 19 digits a field) are read in one pass, without length checks;
+ * anything else (an exponent, a '+', more digits, garbage) goes to
+ * parse_row_general, the reference, which also words every error. The fast
+ * path gives the very same double: both compute m / 10^frac from the same
+ * integer m < 2^53 and frac <= 19, a quotient of two exact doubles, hence
+ * correctly rounded (the value strtod gives too).
+ *
+ * The reader also uses the previous row (REC_Prev): consecutive rows mostly
+ * end alike (speeds, infeed, diameter, dress count stand still between
+ * samples), and trailing fields whose text equals the previous row's take its
+ * values without being read; the time's whole seconds mostly repeat too.
+ * Both are functions of the bytes alone, so the values are the same.
+ *
+ * The fast path needs the row followed by a byte that is not a digit, '.'
+ * or ',' (the '\n', or a NUL), and REC_PAD readable bytes after that; and,
+ * for the previous row, its text unmoved (REC_Next forgets it when the
+ * buffer moves). */
+
+#define ROW_FAST_MAX 248 /* REC_ParseSample copies rows up to this long */
+
+static const double pow10_double[] = {1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,  1e8,  1e9,
+                                      1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19};
+
+#if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
+#define REC_LITTLE_ENDIAN 1
+#endif
+
+static inline uint64_t load8(const char *p)
+{
+  uint64_t x;
+  memcpy(&x, p, sizeof x);
+  return x;
+}
+
+/* The value of the 8 ASCII digits at p, or -1 when one of them is not a
+ * digit: the time column starts with 10 digits, read here in one go. A byte
+ * is a digit when b ^ '0' is 0..9: adding 0x76 sets its high bit otherwise.
+ * The reduction combines pairs, quads, then the eight (the usual SWAR digit
+ * reduction, first byte lowest). */
+static inline int64_t eight_digits(const char *p)
+{
+#ifdef REC_LITTLE_ENDIAN
+  uint64_t t = load8(p) ^ 0x3030303030303030ull;
+  if (((t + 0x7676767676767676ull) | t) & 0x8080808080808080ull)
+    return -1;
+  t = t * 10u + (t >> 8);
+  t = (((t & 0x000000FF000000FFull) * (100u + (1000000ull << 32))) +
+       (((t >> 16) & 0x000000FF000000FFull) * (1u + (10000ull << 32)))) >> 32;
+  return (int64_t)t;
+#else
+  (void)p;
+  return -1;
+#endif
+}
+
+/* Digits from p onto m (m * 10 + digit each, wrapping: the caller counts);
+ * returns where they end. */
+static inline const char *take_digits(const char *p, uint64_t *m)
+{
+  unsigned d;
+  while ((d = (unsigned char)*p - (unsigned)'0') < 10u) {
+    *m = *m * 10u + d;
+    p++;
+  }
+  return p;
+}
+
+/* The end of a field: m over `digits` digits of which `frac` after the '.',
+ * followed by ',' or the end of the row. Returns q, or NULL when it is not of
+ * the fast form. Up to 19 digits m is exact in 64 bits (no wrap), and within
+ * 2^53 it is exact in a double. */
+static inline const char *finish_field(const char *q, const char *end, uint64_t m, size_t digits, size_t frac,
+                                       int neg, double *out)
+{
+  if ((*q != ',' && q != end) || digits == 0 || digits > 19 || m >= (1ull << 53))
+    return NULL;
+  double v = (double)(int64_t)m / pow10_double[frac]; /* signed: one instruction, exact below 2^53 */
+  *out = neg ? -v : v;
+  return q;
+}
+
+/* One field of the fast form at p, ended by ',' or by the end of the row.
+ * Returns where it ends, or NULL when it is not of that form. */
+static inline const char *scan_field(const char *p, const char *end, double *out)
+{
+  int neg = *p == '-';
+  p += neg;
+  const char *d0 = p;
+  int64_t first = eight_digits(p);
+  uint64_t m = 0;
+  if (first >= 0) {
+    m = (uint64_t)first;
+    p += 8;
+  }
+  p = take_digits(p, &m);
+  size_t digits = (size_t)(p - d0), frac = 0;
+  if (*p == '.') {
+    const char *f0 = ++p;
+    p = take_digits(p, &m);
+    frac = (size_t)(p - f0);
+    digits += frac;
+  }
+  return finish_field(p, end, m, digits, frac, neg, out);
+}
+
+/* Whether the n bytes at a and b are equal; both have 16 readable bytes. */
+static inline int same_bytes(const char *a, const char *b, size_t n)
+{
+#ifdef REC_LITTLE_ENDIAN
+  if (n <= 16) {
+    uint64_t m0 = n >= 8 ? ~0ull : (1ull << (8 * n)) - 1u;
+    uint64_t m1 = n <= 8 ? 0 : n >= 16 ? ~0ull : (1ull << (8 * (n - 8))) - 1u;
+    return ((load8(a) ^ load8(b)) & m0) == 0 && ((load8(a + 8) ^ load8(b + 8)) & m1) == 0;
+  }
+#endif
+  return memcmp(a, b, n) == 0;
+}
+
+/* Count of equal bytes at the ends of a[0..alen) and b[0..blen). */
+static inline size_t same_ending(const char *a, size_t alen, const char *b, size_t blen)
+{
+  size_t n = alen < blen ? alen : blen, k = 0;
+#ifdef REC_LITTLE_ENDIAN
+  for (; k + 8 <= n; k += 8) {
+    uint64_t x = load8(a + alen - k - 8) ^ load8(b + blen - k - 8);
+    if (x) /* the last byte is the highest: equal bytes are leading zero bytes */
+      return k + ((unsigned)__builtin_clzll(x) >> 3);
+  }
+#endif
+  while (k < n && a[alen - 1 - k] == b[blen - 1 - k])
+    k++;
+  return k;
+}
+
+/* The time (column 0) at the start of a row: when the previous row's time
+ * had the same whole seconds (the same bytes up to its '.'), they are not
+ * read again. Keeps this row's whole seconds in prev. */
+static inline const char *scan_time(const char *row, const char *end, double *out, REC_Prev *prev)
+{
+  size_t whole = prev->time_whole_digits;
+  uint64_t m;
+  const char *p;
+  if (whole && same_bytes(row, prev->text, whole + 1)) {
+    m = prev->time_whole;
+    p = row + whole + 1;
+  } else {
+    int64_t first = eight_digits(row);
+    m = first >= 0 ? (uint64_t)first : 0;
+    p = take_digits(row + (first >= 0 ? 8 : 0), &m);
+    whole = (size_t)(p - row);
+    if (*p != '.' || whole == 0 || whole > 19) { /* not the usual d...d.d...d */
+      prev->time_whole_digits = 0;
+      return scan_field(row, end, out);
+    }
+    prev->time_whole_digits = whole;
+    prev->time_whole = m;
+    p++;
+  }
+  const char *f0 = p;
+  p = take_digits(p, &m);
+  size_t frac = (size_t)(p - f0);
+  return finish_field(p, end, m, whole + frac, frac, 0, out);
+}
+
+/* Where each column goes in a sample. */
+static const size_t column_offset[REC_COLUMNS] = {
+    offsetof(SMP_Sample, time),
+    offsetof(SMP_Sample, spindle_power_w),
+    offsetof(SMP_Sample, spindle_speed_rpm),
+    offsetof(SMP_Sample, work_speed_mm_min),
+    offsetof(SMP_Sample, infeed_position_mm),
+    offsetof(SMP_Sample, depth_of_cut_mm),
+    offsetof(SMP_Sample, wheel_diameter_mm),
+    offsetof(SMP_Sample, dress_count),
+    offsetof(SMP_Sample, grinding),
+};
+
+static inline double *column_value(SMP_Sample *s, int c)
+{
+  return (double *)(void *)((char *)s + column_offset[c]);
+}
+
+/* The general reading of a row, field by field, as the format says. */
+static int parse_row_general(const char *line, size_t len, SMP_Sample *s, int *bad_column)
 {
   SMP_Clear(s, NAN);
   size_t pos = 0;
@@ -212,7 +400,7 @@ int REC_ParseSample(const char *line, size_t len, SMP_Sample *s, int *bad_column
       return -1;
     }
     if (flen > 0 || c == 0) {
-      if (parse_number(f, flen, column_slot(s, c)) != 0) {
+      if (parse_number(f, flen, column_value(s, c)) != 0) {
         *bad_column = c + 1;
         return -1;
       }
@@ -220,6 +408,73 @@ int REC_ParseSample(const char *line, size_t len, SMP_Sample *s, int *bad_column
     pos += flen + 1;
   }
   return 0;
+}
+
+/* Forgets the previous row: its bytes may be gone. */
+static void forget_prev(REC_Prev *prev)
+{
+  prev->text = NULL;
+  prev->time_whole_digits = 0; /* scan_time compares with prev->text only when set */
+}
+
+/* The fast path (see above), with the previous row or none (prev NULL).
+ * Returns 0, or -1 when the row is not of the fast form; then prev is half
+ * updated and the caller must forget it. prev is updated value by value: a
+ * copy of a whole sample just written would stall on its stores. */
+static int parse_row_fast(const char *row, size_t len, SMP_Sample *s, REC_Prev *prev)
+{
+  const char *end = row + len;
+  int same_from = REC_COLUMNS; /* the columns from here on are the previous row's */
+  if (prev && prev->text) {
+    size_t same = same_ending(row, len, prev->text, prev->len);
+    while (same_from > 1 && prev->comma[same_from - 1] <= same)
+      same_from--;
+  }
+  const char *p = prev ? scan_time(row, end, &s->time, prev) : scan_field(row, end, &s->time);
+  if (!p || *p != ',')
+    return -1;
+  for (int c = 1; c < same_from; c++) {
+    if (prev)
+      prev->comma[c] = (unsigned)(end - p);
+    p++;
+    double *v = column_value(s, c);
+    const char *q = p;
+    if (*p == ',' || p == end)
+      *v = NAN; /* an empty field: a channel not read */
+    else if (!(q = scan_field(p, end, v)))
+      return -1;
+    /* A comma must follow every field but the last, which ends the row. */
+    if (c < REC_COLUMNS - 1 ? *q != ',' : q != end)
+      return -1;
+    if (prev)
+      *column_value(&prev->sample, c) = *v;
+    p = q;
+  }
+  if (same_from < REC_COLUMNS) {
+    /* The rest equals the previous row's from the comma before same_from
+     * on: that comma must be where this row's fields read so far end. */
+    if ((size_t)(end - p) != prev->comma[same_from])
+      return -1;
+    for (int c = same_from; c < REC_COLUMNS; c++)
+      *column_value(s, c) = *column_value(&prev->sample, c);
+  }
+  if (prev) {
+    prev->text = row;
+    prev->len = len;
+  }
+  return 0;
+}
+
+int REC_ParseSample(const char *line, size_t len, SMP_Sample *s, int *bad_column)
+{
+  if (len > ROW_FAST_MAX)
+    return parse_row_general(line, len, s, bad_column);
+  char row[ROW_FAST_MAX + 1 + REC_PAD]; /* the row, a NUL and the padding */
+  memcpy(row, line, len);
+  memset(row + len, 0, 1 + REC_PAD);
+  if (parse_row_fast(row, len, s, NULL) == 0)
+    return 0;
+  return parse_row_general(line, len, s, bad_column);
 }
 
 long REC_FormatMark(double time, const char *kind, const char *text, char *buf, size_t size)
@@ -277,6 +532,8 @@ static const char *next_line(REC_Reader *r, size_t *len, int *complete, int *err
       memmove(r->buf, r->buf + r->start, r->end - r->start);
       r->end -= r->start;
       r->start = 0;
+      memset(r->buf + r->end, 0, 1 + REC_PAD);
+      forget_prev(&r->prev); /* its bytes moved */
     }
     if (r->end == REC_BUF && r->skip_rest) {
       r->start = r->end;
@@ -302,6 +559,7 @@ static const char *next_line(REC_Reader *r, size_t *len, int *complete, int *err
     if (n == 0)
       r->eof = 1;
     r->end += (size_t)n;
+    memset(r->buf + r->end, 0, 1 + REC_PAD); /* the padding the fast path reads (parse_row_fast) */
   }
 }
 
@@ -393,7 +651,7 @@ int REC_Open(REC_Reader *r, const char *path, char *err, size_t errlen)
     snprintf(err, errlen, "%s: %s", path, strerror(errno));
     return -1;
   }
-  r->buf = malloc(REC_BUF);
+  r->buf = malloc(REC_BUF + 1 + REC_PAD);
   if (!r->buf) {
     snprintf(err, errlen, "%s: out of memory", path);
     REC_Close(r);
@@ -488,8 +746,14 @@ int REC_Next(REC_Reader *r, REC_Item *it, char *err, size_t errlen)
     }
     if (len == strlen(REC_HEADER) && memcmp(line, REC_HEADER, len) == 0)
       continue; /* a header repeated after a restart */
+    /* The row is followed by its '\n' and by the buffer's padding, as the fast path needs. */
     int col = 0;
-    if (REC_ParseSample(line, len, &it->sample, &col) != 0) {
+    int bad = parse_row_fast(line, len, &it->sample, &r->prev) != 0;
+    if (bad) {
+      forget_prev(&r->prev);
+      bad = parse_row_general(line, len, &it->sample, &col) != 0;
+    }
+    if (bad) {
       it->kind = REC_ITEM_BAD;
       if (col == 0)
         snprintf(err, errlen, "%s:%ld: expected %d columns", r->path, r->line, REC_COLUMNS);

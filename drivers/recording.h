@@ -3,6 +3,7 @@
 #define GRITLINE_RECORDING_H
 
 #include <stddef.h>
+#include <stdint.h>
 
 #include "grind.h"
 #include "sample.h"
@@ -62,16 +63,28 @@ typedef struct REC_Item {
 } REC_Item;
 
 #define REC_BUF (1 << 20)
+#define REC_PAD 16 /* bytes readable after any row, for the reader's fast path */
+
+/* The previous sample row read by the fast path (see drivers/recording.c). */
+typedef struct REC_Prev {
+  const char *text;           /* the row in the reader's buffer; NULL = none */
+  size_t len;                 /* its length */
+  SMP_Sample sample;          /* what it read as (all but the time) */
+  unsigned comma[REC_COLUMNS]; /* per column from 1: bytes from the comma before it to the end */
+  size_t time_whole_digits;   /* digits of its time before the '.'; 0 = not known */
+  uint64_t time_whole;        /* their value */
+} REC_Prev;
 
 typedef struct REC_Reader {
   int fd;              /* the open file */
   char path[512];      /* for messages */
   REC_Meta meta;       /* filled by REC_Open */
   long line;           /* lines consumed */
-  char *buf;           /* REC_BUF bytes, allocated once by REC_Open */
+  char *buf;           /* REC_BUF bytes and padding, allocated once by REC_Open */
   size_t start, end;   /* unread bytes buf[start..end) */
   int eof;             /* read() returned 0 */
   int skip_rest;       /* an over-long line was returned: skip to its end */
+  REC_Prev prev;       /* the previous sample row, to read repeated fields fast */
 } REC_Reader;
 
 /* Opens a recording and reads its metadata and header. Returns 0, or -1 with

@@ -15,7 +15,8 @@ typedef struct STL_Tracker {
   double limit_s[STL_MAX_CHANNELS];     /* s a value may stay unchanged; <= 0 = never stale */
   uint64_t last_raw[STL_MAX_CHANNELS];  /* raw bits of the latest read */
   double changed_s[STL_MAX_CHANNELS];   /* s (caller's monotonic clock) of the last change */
-  unsigned current;                     /* bit per channel read by the latest poll */
+  unsigned current;                     /* bit per channel with a limit read by the latest poll */
+  unsigned watched;                     /* bit per channel with a limit (limit_s > 0) */
 } STL_Tracker;
 
 /* n channels (at most STL_MAX_CHANNELS), limit_s[i] per channel (s, <= 0 = off). */

@@ -2,6 +2,7 @@
 #include "filetest.h"
 
 #include <fcntl.h>
+#include <stddef.h>
 #include <ftw.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -92,4 +93,16 @@ char *FTS_ReadFile(const char *path, size_t *len)
   if (len)
     *len = n;
   return buf;
+}
+
+double *FTS_Column(SMP_Sample *s, int col)
+{
+  static const size_t offset[REC_COLUMNS] = {
+      offsetof(SMP_Sample, time),          offsetof(SMP_Sample, spindle_power_w),
+      offsetof(SMP_Sample, spindle_speed_rpm), offsetof(SMP_Sample, work_speed_mm_min),
+      offsetof(SMP_Sample, infeed_position_mm), offsetof(SMP_Sample, depth_of_cut_mm),
+      offsetof(SMP_Sample, wheel_diameter_mm), offsetof(SMP_Sample, dress_count),
+      offsetof(SMP_Sample, grinding),
+  };
+  return (double *)(void *)((char *)s + offset[col]);
 }

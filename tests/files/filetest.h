@@ -4,6 +4,8 @@
 
 #include <stddef.h>
 
+#include "recording.h"
+
 /* Makes a fresh folder under $TMPDIR (or /tmp) and returns its path; aborts the test on failure. */
 const char *FTS_TempDir(void);
 /* Removes the folder made by FTS_TempDir with everything in it. */
@@ -14,5 +16,7 @@ const char *FTS_Path(const char *name);
 int FTS_WriteFile(const char *path, const void *data, size_t len);
 /* Reads a whole file into a malloc'd NUL-terminated buffer; *len gets its size. NULL on failure. */
 char *FTS_ReadFile(const char *path, size_t *len);
+/* The value of recording column col (0 = time, REC_COLUMNS columns) in a sample. */
+double *FTS_Column(SMP_Sample *s, int col);
 
 #endif

@@ -17,17 +17,6 @@ TestSuite(recording, .init = setup, .fini = teardown);
 /* Decimals of each column as the format promises (docs/recording-format.md). */
 static const int decimals[REC_COLUMNS] = {6, 1, 1, 2, 6, 6, 4, 0, 0};
 
-static double *slot(SMP_Sample *s, int col)
-{
-  static const size_t offset[REC_COLUMNS] = {
-      offsetof(SMP_Sample, time),          offsetof(SMP_Sample, spindle_power_w),
-      offsetof(SMP_Sample, spindle_speed_rpm), offsetof(SMP_Sample, work_speed_mm_min),
-      offsetof(SMP_Sample, infeed_position_mm), offsetof(SMP_Sample, depth_of_cut_mm),
-      offsetof(SMP_Sample, wheel_diameter_mm), offsetof(SMP_Sample, dress_count),
-      offsetof(SMP_Sample, grinding),
-  };
-  return (double *)((char *)s + offset[col]);
-}
 
 /* A small deterministic generator: the same numbers on every run. */
 static uint64_t rng_state = 0x9e3779b97f4a7c15ull;
@@ -79,7 +68,7 @@ static void check_round_trip(const SMP_Sample *s)
   for (int c = 0; c < REC_COLUMNS; c++) {
     char *end = strpbrk(field, ",\n");
     cr_assert_not_null(end);
-    double v = *slot(orig, c), r = *slot(&back, c);
+    double v = *FTS_Column(orig, c), r = *FTS_Column(&back, c);
     if (isnan(v)) {
       cr_expect(end == field, "column %d of %s: missing value written as text", c + 1, a);
       cr_expect(isnan(r), "column %d: missing value read back as %g", c + 1, r);
@@ -105,7 +94,7 @@ Test(recording, round_trip_with_every_channel_present_or_missing)
     for (int rep = 0; rep < 20; rep++) {
       SMP_Sample s;
       for (int c = 0; c < REC_COLUMNS; c++)
-        *slot(&s, c) = (c > 0 && !(mask & (1u << (c - 1)))) ? NAN : value_for(c, 0);
+        *FTS_Column(&s, c) = (c > 0 && !(mask & (1u << (c - 1)))) ? NAN : value_for(c, 0);
       check_round_trip(&s);
     }
 }
@@ -115,7 +104,7 @@ Test(recording, round_trip_of_extreme_and_awkward_values)
   for (int rep = 0; rep < 20000; rep++) {
     SMP_Sample s;
     for (int c = 0; c < REC_COLUMNS; c++)
-      *slot(&s, c) = value_for(c, c > 0);
+      *FTS_Column(&s, c) = value_for(c, c > 0);
     check_round_trip(&s);
   }
   /* Halfway cases, negative zero, values just under a carry. */
@@ -124,7 +113,7 @@ Test(recording, round_trip_of_extreme_and_awkward_values)
   for (size_t i = 0; i < sizeof awkward / sizeof awkward[0]; i++) {
     SMP_Sample s;
     for (int c = 0; c < REC_COLUMNS; c++)
-      *slot(&s, c) = c == 0 ? 1709600000.0 + awkward[i] * 1e-9 : awkward[i];
+      *FTS_Column(&s, c) = c == 0 ? 1709600000.0 + awkward[i] * 1e-9 : awkward[i];
     check_round_trip(&s);
   }
   /* The time column's resolution: microseconds over this century. */
