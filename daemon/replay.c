@@ -13,6 +13,7 @@
 #include <unistd.h>
 #include <poll.h>
 #include <sys/stat.h>
+#include <dirent.h>
 
 #include "conf.h"
 #include "control.h"
@@ -43,7 +44,8 @@ static const char usage_text[] =
     "                     time, to watch it live with gritline status --socket PATH\n"
     "  --socket PATH      serve the control socket while replaying (default with --speed N:\n"
     "                     DIR/replay.sock; none at max speed)\n"
-    "  --out DIR          where the logs go (default ./replay)\n"
+    "  --out DIR          where the logs go (default ./replay); refused when DIR/<machine>\n"
+    "                     already holds logs (a replay would append to them)\n"
     "  --skip-bad         skip malformed lines (counted and reported) instead of stopping\n"
     "  --compare FILE2    also replay under the configuration FILE2 (with the same --set\n"
     "                     keys) and print the alerts that differ and by how many passes;\n"
@@ -386,6 +388,29 @@ static int run(replay_args *a, const CNF_Config *cfg, const char *out, replay_ru
   return rc;
 }
 
+/* A replay continues the logs it finds, as the daemon does after a restart:
+ * into a folder that already holds a machine's logs it would append a second
+ * copy of every pass. Returns 0 when out/machine is absent or empty. */
+static int out_taken(const char *out, const char *machine)
+{
+  char path[1200];
+  snprintf(path, sizeof path, "%s/%s", out, machine);
+  DIR *d = opendir(path);
+  if (!d)
+    return 0;
+  int taken = 0;
+  struct dirent *e;
+  while (!taken && (e = readdir(d)) != NULL)
+    taken = strcmp(e->d_name, ".") != 0 && strcmp(e->d_name, "..") != 0;
+  closedir(d);
+  if (taken)
+    fprintf(stderr,
+            "gritline replay: --out %s: %s already holds logs of an earlier run, which a replay would append "
+            "to; remove it or give another --out\n",
+            out, path);
+  return taken;
+}
+
 static void print_alerts(const replay_run *a, const replay_run *b, const char *name_a, const char *name_b)
 {
   int differ = 0;
@@ -437,6 +462,13 @@ int RPL_Main(int argc, char **argv)
   static CNF_Config cfg;
   if ((rc = make_config(&a, a.config, &meta, &cfg)) != 0)
     return rc;
+  static CNF_Config cfg2;
+  if (a.compare && (rc = make_config(&a, a.compare, &meta, &cfg2)) != 0)
+    return rc;
+  char out2[1024];
+  snprintf(out2, sizeof out2, "%s/compare", a.out);
+  if (out_taken(a.out, cfg.machine) || (a.compare && out_taken(out2, cfg2.machine)))
+    return EX_CANTCREAT;
   static char sock[1024];
   if (!a.socket && a.speed > 0.0) {
     snprintf(sock, sizeof sock, "%s/replay.sock", a.out);
@@ -455,11 +487,6 @@ int RPL_Main(int argc, char **argv)
             cfg.machine);
     return EX_OK;
   }
-  static CNF_Config cfg2;
-  if ((rc = make_config(&a, a.compare, &meta, &cfg2)) != 0)
-    return rc;
-  char out2[1024];
-  snprintf(out2, sizeof out2, "%s/compare", a.out);
   memset(&second, 0, sizeof second);
   if ((rc = run(&a, &cfg2, out2, &second)) != EX_OK)
     return rc;

@@ -188,6 +188,16 @@ class Replay(unittest.TestCase):
         self.assertIn("missing.csv", r.stderr)
         r = replay("--out", self.out("e3"))
         self.assertEqual(r.returncode, 64)
+        # A second replay into the same folder would append a copy of every pass: refused (73),
+        # and the logs already there are left as they were.
+        again = self.out("again")
+        self.assertEqual(replay(self.rec, "--out", again).returncode, 0)
+        before = {n: read(os.path.join(folder(again)[0], n)) for n in LOGS}
+        r = replay(self.rec, "--out", again)
+        self.assertEqual(r.returncode, 73)
+        self.assertIn("--out %s: %s already holds logs" % (again, os.path.join(again, "testbench")), r.stderr)
+        self.assertEqual(len(r.stderr.strip().splitlines()), 1, r.stderr)
+        self.assertEqual(before, {n: read(os.path.join(folder(again)[0], n)) for n in LOGS})
 
 
 if __name__ == "__main__":
