@@ -11,8 +11,43 @@ static void swap(double *a, double *b)
   *b = t;
 }
 
+/* x[lo..hi] split around the pivot x[hi] (Lomuto): returns p with
+ * x[lo..p) < x[p] = pivot <= x(p..hi]. Every element is moved whatever its
+ * value and the index advances by the comparison, so the loop has no branch
+ * on the data: a median of the Theil-Sen slopes (about 2000 of them after
+ * every pass) spent most of its time in mispredicted branches. */
+static unsigned split_below(double *x, unsigned lo, unsigned hi)
+{
+  double pivot = x[hi];
+  unsigned i = lo;
+  for (unsigned j = lo; j < hi; j++) {
+    double v = x[j];
+    x[j] = x[i];
+    x[i] = v;
+    i += v < pivot;
+  }
+  x[hi] = x[i];
+  x[i] = pivot;
+  return i;
+}
+
+/* x[from..hi] holds values >= pivot: those equal to it are moved to the front.
+ * Returns the end of that run. */
+static unsigned gather_equal(double *x, unsigned from, unsigned hi, double pivot)
+{
+  unsigned i = from;
+  for (unsigned j = from; j <= hi; j++) {
+    double v = x[j];
+    x[j] = x[i];
+    x[i] = v;
+    i += !(v > pivot);
+  }
+  return i;
+}
+
 /* Quickselect with a median-of-three pivot: expected linear time, no recursion,
- * and the same answer for the same input on every run. */
+ * and the same answer for the same input on every run. Leaves x[0..k) <= x[k]
+ * <= x(k..n) (RBS_Median relies on it). */
 double RBS_Select(double *x, unsigned n, unsigned k)
 {
   if (k >= n)
@@ -25,31 +60,29 @@ double RBS_Select(double *x, unsigned n, unsigned k)
           swap(&x[j - 1], &x[j]);
       break;
     }
+    /* The median of first, middle and last goes to x[hi], the pivot's place. */
     unsigned mid = lo + (hi - lo) / 2;
     if (x[mid] < x[lo])
       swap(&x[mid], &x[lo]);
     if (x[hi] < x[lo])
       swap(&x[hi], &x[lo]);
-    if (x[hi] < x[mid])
+    if (x[mid] < x[hi])
       swap(&x[hi], &x[mid]);
-    double pivot = x[mid];
-    unsigned i = lo, j = hi;
-    for (;;) {
-      while (x[i] < pivot)
-        i++;
-      while (x[j] > pivot)
-        j--;
-      if (i >= j)
+    unsigned p = split_below(x, lo, hi);
+    if (k < p) {
+      hi = p - 1;
+    } else if (k == p) {
+      break;
+    } else if (p > lo) {
+      lo = p + 1;
+    } else {
+      /* Nothing under the pivot: ties with it (many equal slopes) would be
+       * peeled one per round; take them all at once. */
+      unsigned e = gather_equal(x, p + 1, hi, x[p]);
+      if (k < e)
         break;
-      swap(&x[i], &x[j]);
-      i++;
-      j--;
+      lo = e;
     }
-    /* x[lo..j] <= pivot <= x[j+1..hi] */
-    if (k <= j)
-      hi = j;
-    else
-      lo = j + 1;
   }
   return x[k];
 }

@@ -35,6 +35,39 @@ Test(robust, select_agrees_with_qsort)
   cr_expect(isnan(RBS_Median(work, 0)));
 }
 
+/* Orders that defeat a naive quickselect (sorted, reversed, all equal, one
+ * value apart from ties, organ pipe), at the size of a full Theil-Sen window
+ * (64 passes: 2016 slopes): the k-th value as a full sort gives it, with the
+ * smaller ones before it and the larger after (RBS_Median relies on that). */
+Test(robust, select_orders_and_ties)
+{
+  enum { N = 2016 };
+  static double x[N], sorted[N], work[N];
+  PGN_Rng r;
+  PGN_Seed(&r, 5);
+  for (int shape = 0; shape < 6; shape++) {
+    for (unsigned i = 0; i < N; i++) {
+      switch (shape) {
+      case 0: x[i] = i; break;
+      case 1: x[i] = N - i; break;
+      case 2: x[i] = 0.25; break;
+      case 3: x[i] = i == 700 ? -1.0 : 3.0; break;
+      case 4: x[i] = i < N / 2 ? i : N - i; break;
+      default: x[i] = floor(PGN_Uniform(&r) * 3.0); break;
+      }
+    }
+    memcpy(sorted, x, sizeof x);
+    qsort(sorted, N, sizeof(double), cmp);
+    for (unsigned k = 0; k < N; k += 37) {
+      memcpy(work, x, sizeof x);
+      double v = RBS_Select(work, N, k);
+      cr_assert_eq(v, sorted[k], "shape %d k %u", shape, k);
+      for (unsigned i = 0; i < N; i++)
+        cr_assert(i < k ? work[i] <= v : i > k ? work[i] >= v : work[i] == v, "shape %d k %u at %u", shape, k, i);
+    }
+  }
+}
+
 /* Anscombe, "Graphs in statistical analysis", The American Statistician 27 (1973)
  * (data and results from memory): data set I has the least-squares line
  * y = 3.00 + 0.500 x; the exact figures 3.0000909 and 0.5000909 were confirmed
