@@ -22,6 +22,7 @@ grinding flag at 17. The machine idles: about 1500 W that jitters.
 | exception | exception 04, server device failure (spec 7) |
 | tid | the answer with another transaction identifier |
 | unit | the answer with another unit identifier |
+| length | the answer with an MBAP length 40 bytes longer than what follows (spec: Modbus Messaging on TCP/IP Implementation Guide V1.0b, 3.1.3) |
 | nan, inf, huge | spindle power as a quiet NaN, +infinity, or 3.0e38 (IEEE 754 binary32) |
 | freeze | every register bit for bit the same, answer after answer |
 
@@ -34,7 +35,7 @@ import sys
 import threading
 import time
 
-MODES = ("normal", "silent", "half", "trickle", "exception", "tid", "unit", "nan", "inf", "huge", "freeze")
+MODES = ("normal", "silent", "half", "trickle", "exception", "tid", "unit", "length", "nan", "inf", "huge", "freeze")
 REGISTERS = 64
 
 
@@ -166,7 +167,8 @@ class EvilServer:
             tid ^= 0x5A5A
         if mode == "unit":
             unit = (unit + 1) & 0xFF
-        return struct.pack(">HHHB", tid, proto, len(body) + 1, unit) + body
+        length = len(body) + 1 + (40 if mode == "length" else 0)
+        return struct.pack(">HHHB", tid, proto, length, unit) + body
 
 
 if __name__ == "__main__":

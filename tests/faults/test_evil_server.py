@@ -30,7 +30,7 @@ import livetest as L
 from evil_server import EvilServer
 
 PERIOD_S = 0.01
-TIMEOUT_S = 0.1          # response_timeout_ms 100; libmodbus's byte timeout is the same (mbclient.c)
+TIMEOUT_S = 0.1          # response_timeout_ms 100; the byte timeout is the same (mbclient.c)
 COMM_LOST_AFTER_S = 0.5
 STALE_AFTER_S = 0.5
 FAULT_S = 1.5
@@ -38,7 +38,7 @@ NORMAL_S = 1.2
 MAX_POWER_W = 50000      # [channel.spindle_power] max: huge values are dropped
 # (mode, what its rows hold): "none" no value at all, "power" the power alone missing, "all" values.
 FAULTS = [("silent", "none"), ("half", "none"), ("trickle", "none"), ("exception", "none"), ("tid", "none"),
-          ("unit", "none"), ("nan", "power"), ("inf", "power"), ("huge", "power"), ("freeze", "all")]
+          ("unit", "none"), ("length", "none"), ("nan", "power"), ("inf", "power"), ("huge", "power"), ("freeze", "all")]
 
 
 class EvilServerFaults(L.LiveCase):
