@@ -649,7 +649,10 @@ int main(int argc, char **argv)
   d.last_clock = NAN;
   if (make_client(&d, &d.cfg) != 0)
     return EX_CONFIG;
-  MON_Options mo = {data_dir, 1};
+  /* samples.csv in batches of 0.2 s: a write per sample was a fifth of the
+   * daemon's CPU at 100 Hz (docs/performance.md); a crash loses at most those
+   * 0.2 s, and no pass or event is written before its samples. */
+  MON_Options mo = {data_dir, 1, 0.2};
   MON_Sink sink = {&d, on_pass, on_event, on_io_error};
   d.mon = MON_Create(&d.cfg, &mo, &sink, err, sizeof err);
   if (!d.mon) {

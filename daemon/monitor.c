@@ -17,6 +17,7 @@
 #include "stale.h"
 #include "summary.h"
 
+#define MON_BATCH 8192 /* bytes of samples.csv held at most: about 130 rows */
 #define MAX_EVENTS 32
 #define STATE_MAGIC "gritline condition state 1\n"
 
@@ -43,6 +44,11 @@ struct MON_Monitor {
   char dir[CNF_PATH + 128];
   char state_path[CNF_PATH + 128];
   LGF_File samples, passes, events, cycles;
+  char batch[MON_BATCH];   /* lines of samples.csv not yet written (opt.record_batch_s) */
+  char joined[REC_LINE_MAX + (MON_BATCH > PLG_LINE_MAX ? MON_BATCH : PLG_LINE_MAX)]; /* gap mark + lines */
+  size_t batch_len;        /* bytes in it */
+  unsigned long batch_lines; /* lines in it */
+  double batch_from;       /* time of its first line */
   MON_Status status;
   CND_Event ev[MAX_EVENTS];
   char line[PLG_LINE_MAX];
@@ -50,17 +56,99 @@ struct MON_Monitor {
 
 /* ---- files --------------------------------------------------------------- */
 
-static void logging_failed(MON_Monitor *m, const LGF_File *f, double t);
+static void logging_failed(MON_Monitor *m, const LGF_File *f, unsigned long lines, double t);
+static void logging_back(MON_Monitor *m, double t, const char *text);
+
+/* Appends n_lines whole lines (len bytes) to samples.csv, the first at time t.
+ * After a failure, writing resumes only on a file system with room for two
+ * batches again, and the gap mark goes first, in the same write: both or
+ * neither (LGF_Append). A full disk still takes a few bytes into the last
+ * block of the file: a short write that fits there must not clear
+ * logging_failed only for the next batch to raise it again. */
+static int write_samples(MON_Monitor *m, const char *lines, size_t len, unsigned long n_lines, double t)
+{
+  const char *out = lines;
+  size_t out_len = len;
+  char text[160];
+  int was_failed = m->log_failed;
+  if (was_failed) {
+    long long room = LGF_Room(&m->samples);
+    if (room >= 0 && room < 2 * MON_BATCH) {
+      errno = ENOSPC;
+      logging_failed(m, &m->samples, n_lines, t);
+      return -1;
+    }
+    snprintf(text, sizeof text, "%lu samples not recorded since %.3f", m->lost_lines, m->lost_from);
+    long k = REC_FormatMark(t, "gap", text, m->joined, REC_LINE_MAX);
+    if (k > 0 && (size_t)k + len <= sizeof m->joined) {
+      memcpy(m->joined + k, lines, len);
+      out = m->joined;
+      out_len = (size_t)k + len;
+    }
+  }
+  if (!LGF_IsOpen(&m->samples) || LGF_Append(&m->samples, out, out_len) != 0) {
+    logging_failed(m, &m->samples, n_lines, t);
+    return -1;
+  }
+  if (was_failed)
+    logging_back(m, t, text);
+  return 0;
+}
+
+/* Writes the held lines of samples.csv, in one write. */
+static int flush_batch(MON_Monitor *m)
+{
+  size_t len = m->batch_len;
+  if (len == 0)
+    return 0;
+  m->batch_len = 0; /* first: a failure writes events, which flush */
+  unsigned long lines = m->batch_lines;
+  m->batch_lines = 0;
+  return write_samples(m, m->batch, len, lines, m->batch_from);
+}
 
 static int write_line(MON_Monitor *m, LGF_File *f, const char *line, long len, double t)
 {
   if (len < 0)
     return -1;
+  /* A record never reaches the disk before the samples it came from, so a
+   * replay of the recording finds every pass and event the daemon wrote. */
+  int rc = 0;
+  char keep[sizeof m->line];
+  if (f != &m->samples && m->batch_len > 0 && (size_t)len <= sizeof keep) {
+    memcpy(keep, line, (size_t)len); /* line is often m->line, which the events of a failed flush overwrite */
+    line = keep;
+    rc = flush_batch(m);
+  }
   if (!LGF_IsOpen(f) || LGF_Append(f, line, (size_t)len) != 0) {
-    logging_failed(m, f, t);
+    logging_failed(m, f, 1, t);
     return -1;
   }
-  return 0;
+  return rc;
+}
+
+/* A line of samples.csv (a sample or a mark): held in the batch when batching,
+ * which is written when full, when record_batch_s of data time has gone by
+ * since its first line, and before any other file is written. */
+static int record_line(MON_Monitor *m, const char *line, long len, double t)
+{
+  char keep[sizeof m->line];
+  if (len <= 0 || (size_t)len > sizeof keep)
+    return -1;
+  memcpy(keep, line, (size_t)len); /* line is often m->line, which the events of a failure overwrite */
+  if (!(m->opt.record_batch_s > 0.0))
+    return write_samples(m, keep, (size_t)len, 1, t);
+  int rc = 0;
+  if (m->batch_len + (size_t)len > sizeof m->batch)
+    rc = flush_batch(m);
+  if (m->batch_len == 0)
+    m->batch_from = t;
+  memcpy(m->batch + m->batch_len, keep, (size_t)len);
+  m->batch_len += (size_t)len;
+  m->batch_lines++;
+  if (!(t - m->batch_from < m->opt.record_batch_s)) /* also a clock that went back */
+    rc |= flush_batch(m);
+  return rc;
 }
 
 static void to_plg(const CND_Event *c, PLG_Event *e)
@@ -125,10 +213,10 @@ __attribute__((format(printf, 7, 8))) static void note(MON_Monitor *m, double t,
 
 /* Monitoring goes on when the disk fails: the condition is raised once, and
  * lines are dropped (never half-written) until writing works again. */
-static void logging_failed(MON_Monitor *m, const LGF_File *f, double t)
+static void logging_failed(MON_Monitor *m, const LGF_File *f, unsigned long lines, double t)
 {
   if (f == &m->samples)
-    m->lost_lines++;
+    m->lost_lines += lines;
   if (m->log_failed)
     return;
   m->log_failed = 1;
@@ -142,17 +230,9 @@ static void logging_failed(MON_Monitor *m, const LGF_File *f, double t)
     emit_cnd(m, &e, 1);
 }
 
-static void logging_back(MON_Monitor *m, double t)
+/* The gap mark (text) is written: logging works again. */
+static void logging_back(MON_Monitor *m, double t, const char *text)
 {
-  if (!m->log_failed)
-    return;
-  char text[160];
-  snprintf(text, sizeof text, "%lu samples not recorded since %.3f", m->lost_lines, m->lost_from);
-  long n = REC_FormatMark(t, "gap", text, m->line, sizeof m->line);
-  /* Writing works again only when the mark got out: clearing on a disk still
-   * full would raise the condition again at the next line, sample after sample. */
-  if (n <= 0 || !LGF_IsOpen(&m->samples) || LGF_Append(&m->samples, m->line, (size_t)n) != 0)
-    return;
   m->log_failed = 0;
   m->lost_lines = 0;
   CND_Event e;
@@ -177,6 +257,7 @@ static int mkdirs(const char *path)
 
 static void close_files(MON_Monitor *m)
 {
+  flush_batch(m);
   LGF_Close(&m->samples);
   LGF_Close(&m->passes);
   LGF_Close(&m->events);
@@ -200,7 +281,7 @@ static int open_log(MON_Monitor *m, LGF_File *f, const char *name, const char *h
   if (LGF_Open(f, path) != 0) {
     LGF_Init(f);
     snprintf(f->path, sizeof f->path, "%s", path);
-    logging_failed(m, f, t);
+    logging_failed(m, f, 1, t);
     return -1;
   }
   if (f->created && header) {
@@ -247,7 +328,7 @@ static void open_shift(MON_Monitor *m, double t)
   snprintf(m->status.shift, sizeof m->status.shift, "%s", m->shift.label);
   if (mkdirs(m->dir) != 0) {
     snprintf(m->samples.path, sizeof m->samples.path, "%s", m->dir);
-    logging_failed(m, &m->samples, t);
+    logging_failed(m, &m->samples, 1, t);
     return;
   }
   if (m->opt.record && open_log(m, &m->samples, "samples.csv", NULL, t) == 0 && m->samples.created) {
@@ -540,13 +621,7 @@ int MON_Feed(MON_Monitor *m, const SMP_Sample *in)
     if (n > 0) {
       int col;
       REC_ParseSample(m->line, (size_t)n - 1, &parsed, &col);
-      if (m->log_failed && LGF_IsOpen(&m->samples)) {
-        char keep[REC_LINE_MAX];
-        memcpy(keep, m->line, (size_t)n);
-        logging_back(m, x->time); /* writes the gap mark first, if the disk takes it */
-        memcpy(m->line, keep, (size_t)n);
-      }
-      if (write_line(m, &m->samples, m->line, n, x->time) != 0)
+      if (record_line(m, m->line, n, x->time) != 0)
         rc = -1;
     }
   }
@@ -590,7 +665,7 @@ int MON_Mark(MON_Monitor *m, double time, const char *kind, const char *text)
   }
   if (m->opt.record) {
     long n = REC_FormatMark(t, kind, text, m->line, sizeof m->line);
-    write_line(m, &m->samples, m->line, n, t);
+    record_line(m, m->line, n, t);
   }
   unsigned n = 0;
   if (strcmp(kind, "start") == 0) {

@@ -26,6 +26,9 @@ typedef struct MON_Options {
   const char *data_dir;  /* root of the shift folders; NULL = the config's */
   int record;            /* 1: write samples.csv and keep the condition state on
                             disk (the daemon); 0: replay */
+  double record_batch_s; /* s of samples held before samples.csv is written (> 0: in
+                            batches, flushed before any other file is written and at
+                            close); 0 = a write per line */
 } MON_Options;
 
 /* Allocates the pipeline once. In record mode the condition model's state

@@ -309,7 +309,7 @@ static void pace(double speed, double t, double *t0_data, double *t0_wall, CTL_S
 static int run(replay_args *a, const CNF_Config *cfg, const char *out, replay_run *r)
 {
   char err[800];
-  MON_Options mo = {out, 0};
+  MON_Options mo = {out, 0, 0.0};
   MON_Sink sink = {r, on_pass, on_event, on_io_error};
   r->mon = MON_Create(cfg, &mo, &sink, err, sizeof err);
   if (!r->mon) {

@@ -6,6 +6,7 @@
 #include <stdio.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <sys/statvfs.h>
 #include <unistd.h>
 
 void LGF_Init(LGF_File *f)
@@ -122,4 +123,12 @@ long LGF_LastLine(const LGF_File *f, char *buf, size_t size)
     return -1;
   buf[len] = '\0';
   return (long)len;
+}
+
+long long LGF_Room(const LGF_File *f)
+{
+  struct statvfs v;
+  if (f->fd < 0 || fstatvfs(f->fd, &v) != 0)
+    return -1;
+  return (long long)v.f_bavail * (long long)v.f_frsize;
 }

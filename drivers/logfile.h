@@ -21,6 +21,9 @@ int LGF_Open(LGF_File *f, const char *path);
  * (disk full) the file is cut back to its previous size. Returns 0, or -1 with
  * errno set. */
 int LGF_Append(LGF_File *f, const char *line, size_t len);
+/* Bytes free for an unprivileged writer on the file's file system, or -1
+ * when unknown (closed, or fstatvfs failed). */
+long long LGF_Room(const LGF_File *f);
 /* Flushes to the disk (fdatasync) and closes. */
 void LGF_Close(LGF_File *f);
 int LGF_IsOpen(const LGF_File *f);

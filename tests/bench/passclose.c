@@ -47,7 +47,7 @@ int main(int argc, char **argv)
     return EX_CONFIG;
   }
   closer c = {NAN};
-  MON_Options mo = {argv[3], 0};
+  MON_Options mo = {argv[3], 0, 0.0};
   MON_Sink sink = {&c, on_pass, on_event, NULL};
   MON_Monitor *m = MON_Create(&cfg, &mo, &sink, err, sizeof err);
   if (!m) {

@@ -7,6 +7,7 @@
 #include <string.h>
 #include <sys/resource.h>
 #include <sys/stat.h>
+#include <sys/statvfs.h>
 #include <sys/wait.h>
 #include <unistd.h>
 
@@ -73,6 +74,7 @@ Test(logfile, closed_or_missing)
   cr_expect_eq(errno, EBADF);
   char buf[16];
   cr_expect_eq(LGF_LastLine(&f, buf, sizeof buf), -1);
+  cr_expect_eq(LGF_Room(&f), -1);
   cr_expect_eq(LGF_Open(&f, FTS_Path("no/such/folder/events.csv")), -1);
   cr_expect_eq(errno, ENOENT);
   cr_expect(!LGF_IsOpen(&f));
@@ -222,4 +224,20 @@ Test(logfile, a_short_write_is_taken_back)
   cr_assert(WIFEXITED(status));
   cr_expect_eq(WEXITSTATUS(status), 0);
   expect_content(path, "head\n1,a\n");
+}
+
+/* The room LGF_Room reports is statvfs(3)'s f_bavail * f_frsize, for the file's
+ * own file system (POSIX statvfs). */
+Test(logfile, room_is_the_file_systems_free_space)
+{
+  LGF_File f;
+  LGF_Init(&f);
+  cr_assert_eq(LGF_Open(&f, FTS_Path("samples.csv")), 0);
+  struct statvfs v;
+  cr_assert_eq(statvfs(FTS_Path("samples.csv"), &v), 0);
+  long long want = (long long)v.f_bavail * (long long)v.f_frsize, got = LGF_Room(&f);
+  /* Other writers on the machine may take or free a little in between. */
+  cr_expect(got > 0 && llabs(got - want) < 64LL << 20, "room %lld, statvfs %lld", got, want);
+  LGF_Close(&f);
+  cr_expect_eq(LGF_Room(&f), -1);
 }
