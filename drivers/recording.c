@@ -651,7 +651,7 @@ int REC_Open(REC_Reader *r, const char *path, char *err, size_t errlen)
     snprintf(err, errlen, "%s: %s", path, strerror(errno));
     return -1;
   }
-  r->buf = malloc(REC_BUF + 1 + REC_PAD);
+  r->buf = malloc(REC_BUF_ALLOC);
   if (!r->buf) {
     snprintf(err, errlen, "%s: out of memory", path);
     REC_Close(r);

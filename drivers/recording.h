@@ -64,6 +64,7 @@ typedef struct REC_Item {
 
 #define REC_BUF (1 << 20)
 #define REC_PAD 16 /* bytes readable after any row, for the reader's fast path */
+#define REC_BUF_ALLOC (REC_BUF + 1 + REC_PAD) /* the reader's buffer: REC_BUF, a NUL and the padding */
 
 /* The previous sample row read by the fast path (see drivers/recording.c). */
 typedef struct REC_Prev {

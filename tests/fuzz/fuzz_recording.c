@@ -10,7 +10,7 @@
 #include "fuzzcheck.h"
 #include "recording.h"
 
-/* REC_Open takes a REC_BUF buffer per file. Under ASan each such allocation
+/* REC_Open takes a REC_BUF_ALLOC buffer per file. Under ASan each such allocation
  * maps fresh pages and (re)poisons 128 KiB of shadow, which made a run cost
  * ~7 ms on the virtual machines here: run-fuzz.sh links this target with
  * --wrap=malloc,--wrap=free so that the buffer comes from one static area
@@ -22,12 +22,12 @@ void __real_free(void *p);
 void *__wrap_malloc(size_t n);
 void __wrap_free(void *p);
 #define RED_ZONE 4096
-static unsigned char big[REC_BUF + RED_ZONE] __attribute__((aligned(64)));
+static unsigned char big[REC_BUF_ALLOC + RED_ZONE] __attribute__((aligned(64)));
 static int big_taken;
 
 void *__wrap_malloc(size_t n)
 {
-  if (n != REC_BUF || big_taken)
+  if (n != REC_BUF_ALLOC || big_taken)
     return __real_malloc(n);
   big_taken = 1;
   return big;
@@ -180,7 +180,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
   if (file_fd < 0) {
     file_fd = FZ_OpenMemFile("fuzz-recording", file_path, sizeof file_path);
     head_fd = FZ_OpenMemFile("fuzz-recording-head", head_path, sizeof head_path);
-    ASAN_POISON_MEMORY_REGION(big + REC_BUF, RED_ZONE);
+    ASAN_POISON_MEMORY_REGION(big + REC_BUF_ALLOC, RED_ZONE);
   }
   parse_row(data, size);
   read_file(data, size);
