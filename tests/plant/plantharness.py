@@ -70,7 +70,8 @@ class Workdir:
         return os.path.join(self.path, name)
 
     def close(self):
-        shutil.rmtree(self.path, ignore_errors=True)
+        if not os.environ.get("GRITLINE_LIVE_KEEP"):  # as the live tests: keep it for a look by hand
+            shutil.rmtree(self.path, ignore_errors=True)
 
 
 # ---- the broker -----------------------------------------------------------
