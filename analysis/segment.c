@@ -122,6 +122,14 @@ void SEG_Init(SEG_State *s, const SEG_Config *c, unsigned long first_number)
 double SEG_Baseline(const SEG_State *s) { return s->have_baseline ? s->baseline_w : NAN; }
 int SEG_InPass(const SEG_State *s) { return s->in_pass; }
 
+/* Idle samples (their forgetting weight) the baseline needs before power
+ * above it may start a pass. With fewer, the noise estimate is still about
+ * zero and the slope of a handful of noisy points is taken at face value:
+ * one noise sample then read as contact, and the pass baseline, extrapolated
+ * with that slope, ran away so that the pass never ended (a daemon started
+ * a few polls before grinding; seen with 4 idle samples 0.5 s apart). */
+#define SEG_MIN_IDLE_WEIGHT 8.0
+
 /* fmax(floor, v) for a floor that is never NAN, inline: fmax is a call into
  * libm, and the thresholds are needed on every sample. */
 static inline double at_least(double floor, double v)
@@ -540,7 +548,8 @@ int SEG_Feed(SEG_State *s, const SMP_Sample *x, SEG_Pass *out)
   } else if (!s->in_pass) {
     double net = s->have_baseline ? x->spindle_power_w - baseline_at(s, x->time) : 0.0;
     int contact = flagged ? x->grinding > 0.5
-                          : (s->have_baseline && x->time >= s->settle_until && net > on_threshold(s));
+                          : (s->have_baseline && s->bl_w >= SEG_MIN_IDLE_WEIGHT && x->time >= s->settle_until &&
+                             net > on_threshold(s));
     /* Flagged contact before any idle sample (the stream began mid-pass) is
      * skipped: that power is no idle baseline, and the pass cannot be measured. */
     if (contact && s->have_baseline) {

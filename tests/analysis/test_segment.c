@@ -310,3 +310,47 @@ Test(segment, config_checks_name_the_field)
   c.contact_off_w = 200.0;
   cr_expect_not_null(strstr(SEG_CheckConfig(&c), "contact_off_w"));
 }
+
+/* A stream that begins a few polls before work: the first idle rows of a
+ * daemon started against the simulator at 60 times real time (recorded
+ * values, 0.4 to 0.6 s apart, all idle, noise about 30 W), then idle on and
+ * one real pass of +800 W for 30 s. Before the baseline had enough idle
+ * samples, the fifth row read as contact and the pass never ended. */
+Test(segment, few_idle_samples_start_no_pass)
+{
+  static const double first[][2] = {{0.000, 2749.4}, {0.535, 2739.6}, {0.937, 2692.0}, {1.517, 2682.5},
+                                     {2.110, 2764.0}, {2.755, 2724.2}, {3.309, 2746.2}, {3.943, 2730.9},
+                                     {4.508, 2685.2}, {5.108, 2703.4}};
+  static SEG_State s;
+  SEG_Config c = job();
+  SEG_Init(&s, &c, 1);
+  SEG_Pass out[MAXP], p;
+  int n = 0;
+  SMP_Sample x;
+  for (int i = 0; i < 10; i++) {
+    SMP_Clear(&x, NAN);
+    x.time = 1000.0 + first[i][0];
+    x.spindle_power_w = first[i][1];
+    x.spindle_speed_rpm = 1200.0;
+    x.work_speed_mm_min = 0.0;
+    x.infeed_position_mm = 0.0;
+    if (SEG_Feed(&s, &x, &p))
+      out[n++] = p;
+  }
+  cr_expect(!SEG_InPass(&s), "noise at start-up read as contact");
+  /* Idle with the same noise to 100 s, a pass from 100 to 130 s, idle to 160 s. */
+  for (int i = 0; i < 2600 && n < MAXP; i++) {
+    double t = 6.0 + i * 0.06;
+    SMP_Clear(&x, NAN);
+    x.time = 1000.0 + t;
+    x.spindle_power_w = 2710.0 + 30.0 * sin(i * 2.3) + (t >= 100.0 && t < 130.0 ? 800.0 : 0.0);
+    x.spindle_speed_rpm = 1200.0;
+    x.work_speed_mm_min = t >= 100.0 && t < 130.0 ? 2400.0 : 0.0;
+    x.infeed_position_mm = 0.015;
+    if (SEG_Feed(&s, &x, &p))
+      out[n++] = p;
+  }
+  cr_assert_eq(n, 1, "%d passes", n);
+  cr_expect(fabs(out[0].start_time - 1100.0) < 0.2 && fabs(out[0].end_time - 1130.0) < 0.2,
+            "pass %.2f..%.2f", out[0].start_time - 1000.0, out[0].end_time - 1000.0);
+}
